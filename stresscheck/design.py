@@ -1,0 +1,196 @@
+"""Design files: the converter, its operating envelope and its bill of materials.
+
+``load_design`` reads and validates a design file (CONTRACT.md, "Design file") and
+resolves every component's part through the parts libraries.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from . import schema
+from .errors import InputError
+from .parts import Part, PartLibrary, shipped_library
+from .tomlio import check_keys, read_toml, require_str, require_table
+from .topologies import layout_for
+from .units import Spread, parse_quantity, parse_spread
+
+
+@dataclass
+class Component:
+    """One [[components]] entry: one or more refs sharing a part and a role."""
+
+    refs: list[str]
+    role: str
+    part: Part
+    parallel: int = 1
+    r_th_ca: float | None = None  # [K/W] case (or hot spot) to ambient, per device
+    r_th_ja: float | None = None  # [K/W] junction to ambient, per device
+    key: str = ""  # "components[3]" for messages
+
+
+@dataclass
+class Design:
+    path: Path
+    name: str
+    topology: str
+    rectifier: str | None
+    modulation: str
+    switching_frequency: Spread  # [Hz] of each switch
+    dead_time: float  # [s]
+    max_duty: float | None  # controller limit on each switch's duty ratio, if given
+    input_voltage: Spread  # [V]
+    input_surge: float | None  # [V]
+    output_voltage: Spread  # [V]
+    output_current: Spread  # [A]
+    current_limit: float | None  # [A]
+    ambient_temperature: Spread  # [degC]
+    components: list[Component] = field(default_factory=list)
+
+    def by_role(self, role: str) -> list[Component]:
+        return [c for c in self.components if c.role == role]
+
+    def positions(self, role: str) -> list[tuple[str, Component]]:
+        """(ref, component) for every ref of ``role`` in file order."""
+        return [(ref, c) for c in self.by_role(role) for ref in c.refs]
+
+
+CONVERTER_KEYS = ("name", "topology", "rectifier", "modulation", "switching_frequency",
+                  "dead_time", "max_duty")
+OPERATING_KEYS = ("input_voltage", "input_surge", "output_voltage", "output_current",
+                  "current_limit", "ambient_temperature")
+COMPONENT_KEYS = ("ref", "refs", "role", "part", "r_th_ca", "r_th_ja", "parallel", "note")
+
+
+def part_folders(design_path: Path, extra_dirs) -> list[Path]:
+    """Search order: --parts folders, parts/ beside the design, the shipped library."""
+    folders = [Path(d) for d in extra_dirs or ()]
+    beside = design_path.parent / "parts"
+    if beside.is_dir():
+        folders.append(beside)
+    folders.append(shipped_library())
+    return folders
+
+
+def load_design(path: str | Path, parts_dirs=()) -> Design:
+    path = Path(path)
+    for folder in parts_dirs or ():
+        if not Path(folder).is_dir():
+            raise InputError(folder, None, "--parts folder does not exist")
+    doc = read_toml(path, "design file")
+    check_keys(doc, ("schema", "converter", "operating", "components"), path)
+    version = require_str(doc, "schema", path)
+    if version != schema.DESIGN_SCHEMA:
+        raise InputError(path, "schema", f"unknown schema version '{version}'; "
+                         f"expected '{schema.DESIGN_SCHEMA}'")
+    conv = require_table(doc, "converter", path)
+    check_keys(conv, CONVERTER_KEYS, path, "converter.")
+    op = require_table(doc, "operating", path)
+    check_keys(op, OPERATING_KEYS, path, "operating.")
+
+    topology = require_str(conv, "topology", path, "converter.", choices=schema.TOPOLOGIES)
+    rectifier = require_str(conv, "rectifier", path, "converter.", optional=True,
+                            choices=schema.RECTIFIERS)
+    modulation = require_str(conv, "modulation", path, "converter.", optional=True,
+                             choices=schema.MODULATIONS) or "pwm"
+
+    def spread(table, key, dim, prefix, *, required=True, positive=True):
+        if key not in table:
+            if required:
+                raise InputError(path, f"{prefix}{key}", "missing key")
+            return None
+        value = parse_spread(table[key], dim, path, f"{prefix}{key}")
+        if positive and value.min <= 0:
+            raise InputError(path, f"{prefix}{key}", "must be greater than zero")
+        return value
+
+    def scalar(table, key, dim, prefix, *, positive=True):
+        if key not in table:
+            return None
+        value = parse_quantity(table[key], dim, path, f"{prefix}{key}")
+        if positive and value <= 0:
+            raise InputError(path, f"{prefix}{key}", "must be greater than zero")
+        return value
+
+    fsw = spread(conv, "switching_frequency", "frequency", "converter.")
+    dead_time = scalar(conv, "dead_time", "time", "converter.", positive=False) or 0.0
+    if dead_time < 0:
+        raise InputError(path, "converter.dead_time", "must not be negative")
+    max_duty = scalar(conv, "max_duty", "fraction", "converter.")
+    if max_duty is not None and max_duty >= 1:
+        raise InputError(path, "converter.max_duty", "must be below 100 %")
+
+    vin = spread(op, "input_voltage", "voltage", "operating.")
+    vo = spread(op, "output_voltage", "voltage", "operating.")
+    io = spread(op, "output_current", "current", "operating.")
+    ta = spread(op, "ambient_temperature", "temperature", "operating.", positive=False)
+    surge = scalar(op, "input_surge", "voltage", "operating.")
+    if surge is not None and surge < vin.max:
+        raise InputError(path, "operating.input_surge", f"surge ({surge:g} V) is below the "
+                         f"maximum input voltage ({vin.max:g} V)")
+    ilim = scalar(op, "current_limit", "current", "operating.")
+    if ilim is not None and ilim < io.max:
+        raise InputError(path, "operating.current_limit", f"current limit ({ilim:g} A) is "
+                         f"below the maximum output current ({io.max:g} A)")
+    if dead_time * fsw.max >= 0.5:
+        raise InputError(path, "converter.dead_time", "dead time leaves no on-time at the "
+                         "highest switching frequency")
+
+    name = conv.get("name", path.stem)
+    if not isinstance(name, str):
+        raise InputError(path, "converter.name", "expected a string")
+
+    design = Design(path, name, topology, rectifier, modulation, fsw, dead_time, max_duty,
+                    vin, surge, vo, io, ilim, ta)
+    library = PartLibrary(part_folders(path, parts_dirs))
+    design.components = _load_components(doc, path, library)
+    layout = layout_for(design)  # raises on unsupported combinations
+    layout.validate(design)
+    return design
+
+
+def _load_components(doc, path, library) -> list[Component]:
+    entries = doc.get("components")
+    if entries is None:
+        raise InputError(path, "components", "no [[components]] given")
+    if not isinstance(entries, list) or not all(isinstance(e, dict) for e in entries):
+        raise InputError(path, "components", "must be an array of tables [[components]]")
+    components: list[Component] = []
+    seen_refs: dict[str, str] = {}
+    for i, entry in enumerate(entries):
+        key = f"components[{i}]"
+        check_keys(entry, COMPONENT_KEYS, path, f"{key}.")
+        if ("ref" in entry) == ("refs" in entry):
+            raise InputError(path, f"{key}.refs", "give either ref = \"Q1\" or refs = [...]")
+        refs = [entry["ref"]] if "ref" in entry else entry["refs"]
+        if not isinstance(refs, list) or not refs or not all(
+                isinstance(r, str) and r.strip() for r in refs):
+            raise InputError(path, f"{key}.refs", "expected a non-empty list of designators")
+        for ref in refs:
+            if ref in seen_refs:
+                raise InputError(path, f"{key}.refs", f"duplicate designator '{ref}' (also "
+                                 f"in {seen_refs[ref]})")
+            seen_refs[ref] = key
+        role = require_str(entry, "role", path, f"{key}.", choices=schema.ROLES)
+        part_id = entry.get("part")
+        if part_id is None:
+            raise InputError(path, f"{key}.part", "missing key")
+        part = library.get(part_id, path, f"{key}.part")
+        if part.kind not in schema.ROLE_KINDS[role]:
+            raise InputError(path, f"{key}.part", f"part '{part.id}' is a {part.kind}; role "
+                             f"'{role}' takes " + " or ".join(schema.ROLE_KINDS[role]))
+        parallel = entry.get("parallel", 1)
+        if isinstance(parallel, bool) or not isinstance(parallel, int) or parallel < 1:
+            raise InputError(path, f"{key}.parallel", "expected a whole number of at least 1")
+        comp = Component(refs=list(refs), role=role, part=part, parallel=parallel, key=key)
+        for tkey in ("r_th_ca", "r_th_ja"):
+            if tkey in entry:
+                value = parse_quantity(entry[tkey], "thermal_resistance", path, f"{key}.{tkey}")
+                if value <= 0:
+                    raise InputError(path, f"{key}.{tkey}", "must be greater than zero")
+                setattr(comp, tkey, value)
+        if comp.r_th_ca is not None and comp.r_th_ja is not None:
+            raise InputError(path, f"{key}.r_th_ja", "give r_th_ca or r_th_ja, not both")
+        components.append(comp)
+    return components

@@ -1,0 +1,162 @@
+"""Part sheets: loading, validation and lookup in parts libraries.
+
+A part sheet is one TOML file per part (``<id>.toml``); see CONTRACT.md. Values are held
+in SI base units; a key whose table allows it may hold a ``Spread`` (range or tolerance).
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field
+from importlib import resources
+from pathlib import Path
+
+from . import schema
+from .errors import InputError
+from .tomlio import check_keys, read_toml, require_str
+from .units import Spread, parse_quantity, parse_spread
+
+PART_ID = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.-]{0,79}$")
+
+
+@dataclass
+class Part:
+    id: str
+    kind: str
+    technology: str
+    description: str
+    path: Path
+    ratings: dict[str, float] = field(default_factory=dict)
+    electrical: dict[str, float | Spread] = field(default_factory=dict)
+    thermal: dict[str, float] = field(default_factory=dict)
+    extra: dict = field(default_factory=dict)  # informational tables kept as read
+
+    def value(self, key: str) -> float | None:
+        """Nominal value of an electrical or thermal key [SI], or None."""
+        v = self.electrical.get(key, self.thermal.get(key))
+        if isinstance(v, Spread):
+            return v.nom
+        return v
+
+    def spread(self, key: str) -> Spread | None:
+        v = self.electrical.get(key)
+        if v is None:
+            return None
+        return v if isinstance(v, Spread) else Spread(v, v, v)
+
+
+def valid_part_id(part_id) -> bool:
+    return isinstance(part_id, str) and bool(PART_ID.match(part_id)) and ".." not in part_id
+
+
+def load_part(path: str | Path) -> Part:
+    """Read and validate one part sheet."""
+    path = Path(path)
+    doc = read_toml(path, "part sheet")
+    check_keys(doc, ("schema", "id", "kind", "technology", "description", "ratings",
+                     "electrical", "thermal", "notes", "source"), path)
+    version = require_str(doc, "schema", path)
+    if version != schema.PART_SCHEMA:
+        raise InputError(path, "schema", f"unknown schema version '{version}'; "
+                         f"expected '{schema.PART_SCHEMA}'")
+    part_id = require_str(doc, "id", path)
+    if not valid_part_id(part_id):
+        raise InputError(path, "id", "a part id may hold letters, digits, '.', '_' and '-' "
+                         "only (no path separators), at most 80 characters")
+    if part_id != path.stem:
+        raise InputError(path, "id", f"id '{part_id}' must equal the file name stem "
+                         f"'{path.stem}'")
+    kind = require_str(doc, "kind", path, choices=schema.KINDS)
+    technology = require_str(doc, "technology", path, choices=schema.TECHNOLOGIES[kind])
+    description = require_str(doc, "description", path, optional=True) or ""
+    part = Part(part_id, kind, technology, description, path)
+    tables = schema.PART_KEYS[kind]
+    for section in ("ratings", "electrical", "thermal"):
+        table = doc.get(section, {})
+        if not isinstance(table, dict):
+            raise InputError(path, section, f"[{section}] must be a table")
+        check_keys(table, tables[section], path, prefix=f"{section}.")
+        target = getattr(part, section)
+        for key, raw in table.items():
+            spec = tables[section][key]
+            full = f"{section}.{key}"
+            if spec.spread:
+                value = parse_spread(raw, spec.dimension, path, full)
+                low = value.min
+            else:
+                value = parse_quantity(raw, spec.dimension, path, full)
+                low = value
+            if key in schema.POSITIVE_KEYS and low <= 0:
+                raise InputError(path, full, "must be greater than zero")
+            if spec.dimension in ("resistance", "time", "charge", "capacitance",
+                                  "inductance") and low < 0:
+                raise InputError(path, full, "must not be negative")
+            target[key] = value
+    _check_consistency(part)
+    return part
+
+
+def _check_consistency(part: Part) -> None:
+    e, path = part.electrical, part.path
+    if part.kind == "mosfet":
+        if "r_ds_on" not in e:
+            raise InputError(path, "electrical.r_ds_on", "a MOSFET needs r_ds_on")
+        if ("r_ds_on_hot" in e) != ("r_ds_on_hot_temperature" in e):
+            raise InputError(path, "electrical.r_ds_on_hot",
+                             "r_ds_on_hot and r_ds_on_hot_temperature go together")
+        if "r_ds_on_hot_temperature" in e and e["r_ds_on_hot_temperature"] <= 25.0:
+            raise InputError(path, "electrical.r_ds_on_hot_temperature",
+                             "must be above 25 degC (r_ds_on is the 25 degC value)")
+    if part.kind == "diode" and "v_f0" not in e:
+        raise InputError(path, "electrical.v_f0", "a diode needs v_f0 (forward drop at "
+                         "zero current of its straight-line model)")
+    if part.kind == "capacitor" and "capacitance" not in e:
+        raise InputError(path, "electrical.capacitance", "a capacitor needs a capacitance")
+    if part.kind == "inductor" and "inductance" not in e:
+        raise InputError(path, "electrical.inductance", "an inductor needs an inductance")
+    if part.kind == "transformer":
+        for key in ("primary_turns", "secondary_turns"):
+            if key not in e:
+                raise InputError(path, f"electrical.{key}", "a transformer needs turns")
+
+
+def shipped_library() -> Path:
+    """Folder of the part library shipped inside the package (``parts/`` of the source
+    tree, installed as ``stresscheck.parts``)."""
+    try:
+        return Path(str(resources.files("stresscheck.parts")))
+    except (ModuleNotFoundError, TypeError):  # running from a source checkout
+        return Path(__file__).resolve().parent.parent / "parts"
+
+
+class PartLibrary:
+    """Looks a part id up in an ordered list of folders (first hit wins)."""
+
+    def __init__(self, folders):
+        self.folders = [Path(f) for f in folders]
+        self._cache: dict[str, Part] = {}
+
+    def get(self, part_id, where, key: str) -> Part:
+        """Load part ``part_id``; ``where``/``key`` name the design entry that asked for it."""
+        if not valid_part_id(part_id):
+            raise InputError(where, key, f"invalid part id {part_id!r}: letters, digits, "
+                             "'.', '_' and '-' only")
+        if part_id in self._cache:
+            return self._cache[part_id]
+        for folder in self.folders:
+            candidate = folder / f"{part_id}.toml"
+            if candidate.is_file():
+                part = load_part(candidate)
+                self._cache[part_id] = part
+                return part
+        searched = ", ".join(str(f) for f in self.folders)
+        raise InputError(where, key, f"part '{part_id}' is not in any parts library "
+                         f"(searched: {searched})")
+
+    def all_parts(self) -> list[Part]:
+        seen: dict[str, Part] = {}
+        for folder in self.folders:
+            for file in sorted(folder.glob("*.toml")):
+                if file.stem not in seen:
+                    seen[file.stem] = load_part(file)
+        return list(seen.values())

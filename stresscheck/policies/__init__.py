@@ -1,0 +1,1 @@
+"""Built-in derating policies (TOML packs, each rule with its source)."""

@@ -1,0 +1,193 @@
+"""Derating policies: rules that turn a part rating into an allowed stress.
+
+A rule matches a part kind (and optionally technologies and stress kinds) and a
+quantity. It sets ``allowed`` either as ``factor × rating`` or, for temperatures, as
+``rating − margin`` capped at ``limit`` (either may be given alone). Where several rules
+match, the strictest (lowest allowed) governs. Built-in packs live in
+``stresscheck/policies/<name>.toml``, each rule with its source.
+"""
+
+from __future__ import annotations
+
+import hashlib
+from dataclasses import dataclass
+from importlib import resources
+from pathlib import Path
+
+from . import schema
+from .errors import InputError
+from .tomlio import check_keys, read_toml, require_str, suggest
+from .units import parse_quantity
+
+RULE_KEYS = ("id", "kind", "technology", "quantity", "rating", "factor", "margin", "limit",
+             "stress_kind", "source", "note")
+
+
+@dataclass(frozen=True)
+class Rule:
+    id: str
+    kind: str
+    quantity: str
+    source: str
+    rating: str | None = None
+    factor: float | None = None
+    margin: float | None = None  # [K] (temperatures) or quantity units
+    limit: float | None = None  # [SI of the quantity]
+    technology: tuple[str, ...] | None = None
+    stress_kinds: tuple[str, ...] | None = None
+
+    def matches(self, part, quantity: str) -> bool:
+        return (self.kind == part.kind and self.quantity == quantity
+                and (self.technology is None or part.technology in self.technology))
+
+    def allowed(self, part) -> float | None:
+        """Allowed stress for ``part`` [SI], or None when the rating is missing."""
+        if self.rating is None:
+            return self.limit
+        rating = part.ratings.get(self.rating)
+        if rating is None:
+            return None
+        value = rating
+        if self.factor is not None:
+            value = value * self.factor
+        if self.margin is not None:
+            value = value - self.margin
+        if self.limit is not None:
+            value = min(value, self.limit)
+        return value
+
+    def as_dict(self) -> dict:
+        return {"id": self.id, "kind": self.kind, "quantity": self.quantity,
+                "rating": self.rating, "factor": self.factor, "margin": self.margin,
+                "limit": self.limit,
+                "technology": list(self.technology) if self.technology else None,
+                "stress_kinds": list(self.stress_kinds) if self.stress_kinds else None,
+                "source": self.source}
+
+
+@dataclass
+class Policy:
+    name: str
+    marginal_above: float
+    rules: list[Rule]
+    path: Path
+    sha256: str
+
+    def rules_for(self, part, quantity: str) -> list[Rule]:
+        return [r for r in self.rules if r.matches(part, quantity)]
+
+
+def builtin_names() -> list[str]:
+    folder = resources.files("stresscheck.policies")
+    return sorted(p.name[:-5] for p in folder.iterdir() if p.name.endswith(".toml"))
+
+
+def load_policy(name_or_file: str | None) -> Policy:
+    """A built-in policy by name, or a policy file by path (default: commercial)."""
+    name_or_file = name_or_file or "commercial"
+    path = Path(name_or_file)
+    if not name_or_file.endswith(".toml") and not path.exists():
+        names = builtin_names()
+        if name_or_file not in names:
+            raise InputError(name_or_file, None, "no such policy file or built-in policy"
+                             + suggest(name_or_file, names))
+        path = Path(str(resources.files("stresscheck.policies") / f"{name_or_file}.toml"))
+    return _read_policy(path)
+
+
+def _read_policy(path: Path) -> Policy:
+    doc = read_toml(path, "policy")
+    check_keys(doc, ("schema", "name", "marginal_above", "rules", "description"), path)
+    version = require_str(doc, "schema", path)
+    if version != schema.POLICY_SCHEMA:
+        raise InputError(path, "schema", f"unknown schema version '{version}'; "
+                         f"expected '{schema.POLICY_SCHEMA}'")
+    name = require_str(doc, "name", path)
+    marginal = doc.get("marginal_above", 0.9)
+    if isinstance(marginal, bool) or not isinstance(marginal, (int, float)):
+        raise InputError(path, "marginal_above", "expected a number such as 0.9")
+    marginal = float(marginal)
+    if not 0 < marginal <= 1:
+        raise InputError(path, "marginal_above", "must lie in (0, 1]")
+    raw_rules = doc.get("rules", [])
+    if not isinstance(raw_rules, list) or not all(isinstance(r, dict) for r in raw_rules):
+        raise InputError(path, "rules", "must be an array of tables [[rules]]")
+    rules = [_read_rule(r, i, path) for i, r in enumerate(raw_rules)]
+    ids = [r.id for r in rules]
+    for rule_id in ids:
+        if ids.count(rule_id) > 1:
+            raise InputError(path, "rules", f"rule id '{rule_id}' is used twice")
+    digest = hashlib.sha256(path.read_bytes()).hexdigest()
+    return Policy(name, marginal, rules, path, digest)
+
+
+def _read_rule(raw: dict, i: int, path) -> Rule:
+    key = f"rules[{i}]"
+    check_keys(raw, RULE_KEYS, path, f"{key}.")
+    kind = require_str(raw, "kind", path, f"{key}.", choices=schema.KINDS)
+    quantity = require_str(raw, "quantity", path, f"{key}.",
+                           choices=schema.KIND_QUANTITIES[kind])
+    if quantity == "life":
+        raise InputError(path, f"{key}.quantity", "rules on capacitor life (a required "
+                         "minimum life) are not supported yet; life is reported as info")
+    source = require_str(raw, "source", path, f"{key}.")
+    if not source.strip():
+        raise InputError(path, f"{key}.source", "every rule must say where it comes from")
+    ratings = schema.PART_KEYS[kind]["ratings"]
+    rating = require_str(raw, "rating", path, f"{key}.", optional=True, choices=ratings)
+    tech = _str_list(raw, "technology", path, key, schema.TECHNOLOGIES[kind])
+    kinds = _str_list(raw, "stress_kind", path, key, schema.STRESS_KINDS)
+    factor = raw.get("factor")
+    if factor is not None:
+        if isinstance(factor, bool) or not isinstance(factor, (int, float)):
+            raise InputError(path, f"{key}.factor", "expected a number such as 0.8")
+        factor = float(factor)
+        if not 0 < factor <= 1.5:
+            raise InputError(path, f"{key}.factor", "must lie in (0, 1.5]")
+    qdim = _quantity_dimension(quantity)
+    margin = raw.get("margin")
+    if margin is not None:
+        mdim = "temperature_difference" if qdim == "temperature" else qdim
+        margin = parse_quantity(margin, mdim, path, f"{key}.margin")
+        if margin < 0:
+            raise InputError(path, f"{key}.margin", "must not be negative")
+    limit = raw.get("limit")
+    if limit is not None:
+        limit = parse_quantity(limit, qdim, path, f"{key}.limit")
+    if rating is None and limit is None:
+        raise InputError(path, f"{key}.rating", "a rule needs a rating (with factor or "
+                         "margin) or a fixed limit")
+    if rating is not None and factor is None and margin is None and limit is None:
+        raise InputError(path, f"{key}.factor", "a rule on a rating needs factor, margin "
+                         "or limit")
+    if rating is not None:
+        rdim = schema.PART_KEYS[kind]["ratings"][rating].dimension
+        if rdim != qdim:
+            raise InputError(path, f"{key}.rating", f"rating '{rating}' is a "
+                             f"{rdim.replace('_', ' ')}, but quantity '{quantity}' is a "
+                             f"{qdim.replace('_', ' ')}")
+    rule_id = raw.get("id", f"{kind}-{quantity}")
+    if not isinstance(rule_id, str) or not rule_id:
+        raise InputError(path, f"{key}.id", "expected a non-empty string")
+    return Rule(rule_id, kind, quantity, source, rating, factor, margin, limit, tech, kinds)
+
+
+def _str_list(raw, name, path, key, choices):
+    if name not in raw:
+        return None
+    value = raw[name]
+    values = [value] if isinstance(value, str) else value
+    if not isinstance(values, list) or not values or not all(isinstance(v, str) for v in values):
+        raise InputError(path, f"{key}.{name}", "expected a name or a list of names")
+    for v in values:
+        if v not in choices:
+            raise InputError(path, f"{key}.{name}", f"unknown value '{v}'" + suggest(v, choices))
+    return tuple(values)
+
+
+_QUANTITY_DIMENSIONS = {"V": "voltage", "A": "current", "W": "power", "degC": "temperature",
+                        "T": "flux_density", "s": "time"}
+
+
+def _quantity_dimension(quantity: str) -> str:
+    return _QUANTITY_DIMENSIONS[schema.QUANTITIES[quantity].unit]

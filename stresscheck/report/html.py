@@ -1,0 +1,525 @@
+"""HTML report, plus the formatting and ordering helpers the spreadsheet shares.
+
+The template gets a ready-made view (every number already formatted as text) and
+autoescaping is always on, so no text from a design, part sheet or policy can inject
+markup into the report.
+"""
+
+from __future__ import annotations
+
+import math
+from importlib import resources
+from pathlib import Path
+
+import jinja2
+
+from ..schema import KIND_QUANTITIES, QUANTITIES
+from .cautions import CAUTIONS
+
+TEMPLATE_NAME = "report.html.j2"
+MARKER = "<!-- stresscheck report -->"  # emitted by the template; see writer.py
+
+# Display order of statuses; the first four are "findings".
+STATUS_ORDER = ("fail", "not-computed", "unrated", "marginal", "pass", "info")
+FINDING_STATUSES = ("fail", "not-computed", "unrated", "marginal")
+
+# One palette for HTML and spreadsheet (RRGGBB): three-state green/amber/red, grey where
+# there is no verdict, blue-grey for information only.
+STATUS_COLOURS = {
+    "pass": "C8E6C9",
+    "marginal": "FFE0A3",
+    "fail": "F4B4AE",
+    "unrated": "D6D6D6",
+    "not-computed": "D6D6D6",
+    "info": "D3DDE8",
+}
+OTHER_COLOUR = "EEEEEE"  # statuses added later (e.g. waived) until they get their own
+
+ROLE_ORDER = ("switch", "rectifier", "freewheel", "reset", "transformer", "inductor",
+              "input-capacitor", "output-capacitor", "split-capacitor")
+
+DASH = "\u2014"  # shown for None (not computed) and missing values
+_NNBSP = "\u202f"  # thousands separator in long numbers
+_PREFIXES = {-15: "f", -12: "p", -9: "n", -6: "\u00b5", -3: "m", 0: "", 3: "k", 6: "M",
+             9: "G", 12: "T"}
+_PREFIXABLE = {"V", "A", "W", "T", "Hz", "H", "F", "ohm", "s", "C", "J", "Wb"}
+_UNIT_LABELS = {"degC": "\u00b0C", "ohm": "\u03a9", "1": "", "m^2": "m\u00b2",
+                "m**2": "m\u00b2"}
+
+
+# --------------------------------------------------------------------------- formatting
+
+def unit_label(unit: str | None) -> str:
+    """Printable unit symbol ("degC" -> "°C", "ohm" -> "Ω", "1" -> "")."""
+    if not unit:
+        return ""
+    return _UNIT_LABELS.get(unit, unit)
+
+
+def display_value(value, unit: str | None, quantity: str | None = None):
+    """Convert a results value to the unit it is shown in.
+
+    Parameters
+    ----------
+    value
+        Number in SI units (°C for temperatures), or None.
+    unit
+        SI unit of ``value`` as in results.json.
+    quantity
+        Checked quantity; ``life`` is shown in hours rather than seconds.
+
+    Returns
+    -------
+    tuple
+        ``(value, unit_label)``; value is unchanged except for life (s -> h).
+    """
+    if quantity == "life" and unit == "s":
+        if isinstance(value, (int, float)) and not isinstance(value, bool):
+            value = value / 3600.0
+        return value, "h"
+    return value, unit_label(unit)
+
+
+def _round_sig(x: float, digits: int) -> float:
+    return float(f"{x:.{digits}g}")
+
+
+def format_number(value, digits: int = 3) -> str:
+    """A plain number to ``digits`` significant figures, without exponent for 1e-3..1e6."""
+    if value is None:
+        return DASH
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return str(value)
+    if not math.isfinite(value):
+        return str(value)
+    if value == 0:
+        return "0"
+    r = _round_sig(value, digits)
+    if 1e-3 <= abs(r) < 1e6:
+        text = f"{r:.{max(digits, 1)}g}" if abs(r) < 1000 else f"{r:,.0f}"
+        if "e" in text:
+            text = repr(r)
+        return text.replace(",", _NNBSP)
+    return f"{r:.{digits - 1}e}"
+
+
+def format_eng(value, unit: str, digits: int = 3) -> str:
+    """Engineering notation with an SI prefix: 0.0047 T -> "4.7 mT", 75.0 V -> "75 V"."""
+    r = _round_sig(value, digits)
+    if r == 0:
+        return f"0 {unit_label(unit)}".strip()
+    exp = int(math.floor(math.log10(abs(r)) / 3) * 3)
+    exp = max(min(exp, 12), -15)
+    mant = r / 10 ** exp
+    text = f"{mant:.{digits}g}"
+    if "e" in text:  # cannot happen after rounding, but never print "1e+03 V"
+        text = format_number(mant, digits)
+    return f"{text} {_PREFIXES[exp]}{unit_label(unit)}"
+
+
+def format_value(value, unit: str | None, quantity: str | None = None) -> str:
+    """Format one value for the HTML report.
+
+    Parameters
+    ----------
+    value
+        Number in SI units, None (not computed: shown as "—"), or text.
+    unit
+        SI unit from results.json ("V", "A", "W", "degC", "T", "s", "Hz", "H", "1" ...).
+    quantity
+        The checked quantity, if any (life is shown in hours).
+
+    Returns
+    -------
+    str
+        For example "73.2 V", "1.25 A", "4.7 mT", "112.4 °C", "45 200 h".
+    """
+    if value is None:
+        return DASH
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return str(value)
+    if not math.isfinite(value):
+        return f"{value} {unit_label(unit)}".strip()
+    value, label = display_value(value, unit, quantity)
+    if unit == "degC":
+        return f"{value:.1f} {label}"
+    if label == "h":
+        return f"{format_number(value)} h"
+    if unit in _PREFIXABLE:
+        return format_eng(value, unit)
+    return f"{format_number(value)} {label}".strip()
+
+
+def format_ratio(ratio) -> str:
+    """Ratio stress/allowed as percent of allowed: 0.915 -> "91.5 %"; None -> "—"."""
+    if ratio is None or isinstance(ratio, bool) or not isinstance(ratio, (int, float)):
+        return DASH
+    if not math.isfinite(ratio):
+        return str(ratio)
+    return f"{ratio * 100:.1f} %"
+
+
+def status_class(status) -> str:
+    """CSS class suffix for a status (only known names; anything else is "other")."""
+    return status if status in STATUS_COLOURS else "other"
+
+
+# --------------------------------------------------------------------------- ordering
+
+def _status_rank(status) -> int:
+    try:
+        return STATUS_ORDER.index(status)
+    except ValueError:
+        return len(STATUS_ORDER)
+
+
+def _ratio_key(check) -> float:
+    ratio = check.get("ratio")
+    if isinstance(ratio, (int, float)) and not isinstance(ratio, bool) and math.isfinite(ratio):
+        return -float(ratio)
+    return math.inf  # no ratio: after every numeric ratio of the same status
+
+
+def sort_findings(checks) -> list[dict]:
+    """Checks needing attention, worst first.
+
+    Parameters
+    ----------
+    checks
+        The ``checks`` list of a results dict.
+
+    Returns
+    -------
+    list of dict
+        Checks whose status is fail, not-computed, unrated or marginal, ordered by status in
+        that order, then by ratio descending (rows without a ratio last); ties keep the
+        engine's order.
+    """
+    rows = [(i, c) for i, c in enumerate(checks or ()) if c.get("status") in FINDING_STATUSES]
+    rows.sort(key=lambda ic: (_status_rank(ic[1].get("status")), _ratio_key(ic[1]), ic[0]))
+    return [c for _, c in rows]
+
+
+def count_statuses(results: dict) -> dict[str, int]:
+    """Status counts: the ``summary`` of the results, else counted from the checks."""
+    summary = results.get("summary")
+    if isinstance(summary, dict) and summary:
+        counts = {k: int(v) for k, v in summary.items() if isinstance(v, (int, float))}
+    else:
+        counts = {}
+        for check in results.get("checks") or ():
+            status = check.get("status")
+            counts[status] = counts.get(status, 0) + 1
+    for status in STATUS_ORDER:
+        counts.setdefault(status, 0)
+    return counts
+
+
+def corner_columns(results: dict) -> list[str]:
+    """Corner keys in display order: id, kind, ``corner_keys``, then any other key seen."""
+    cols = ["id"]
+    corners = results.get("corners") or ()
+    if any("kind" in c for c in corners):
+        cols.append("kind")
+    for key in results.get("corner_keys") or ():
+        if key not in cols:
+            cols.append(key)
+    for corner in corners:
+        for key in corner:
+            if key not in cols:
+                cols.append(key)
+    return cols
+
+
+def governing_corner_ids(results: dict) -> list[str]:
+    """Ids of the corners referenced by any check, in corner-list order."""
+    used = {c.get("corner") for c in results.get("checks") or () if c.get("corner")}
+    ordered = [c.get("id") for c in results.get("corners") or () if c.get("id") in used]
+    missing = sorted(str(u) for u in used if u not in ordered)
+    return ordered + missing
+
+
+def tool_version(results: dict, context: dict) -> str:
+    tool = results.get("tool") or {}
+    return str(context.get("tool_version") or tool.get("version") or DASH)
+
+
+# --------------------------------------------------------------------------- view model
+
+def _text(value) -> str:
+    return DASH if value is None or value == "" else str(value)
+
+
+def _quantity_desc(quantity) -> str:
+    q = QUANTITIES.get(quantity)
+    return q.description if q else ""
+
+
+def _check_view(check: dict) -> dict:
+    unit = check.get("unit")
+    quantity = check.get("quantity")
+    rating = check.get("rating")
+    rating_text = ""
+    if rating is not None or check.get("rating_key"):
+        rating_text = f"rating {format_value(rating, unit, quantity)}"
+        if check.get("rating_key"):
+            rating_text += f" ({check['rating_key']})"
+    stress_kind = check.get("stress_kind")
+    status = check.get("status")
+    corner = check.get("corner")
+    return {
+        "ref": _text(check.get("ref")),
+        "part": _text(check.get("part")),
+        "kind": _text(check.get("kind")),
+        "quantity": _text(quantity),
+        "quantity_desc": _quantity_desc(quantity),
+        "stress_kind": stress_kind if stress_kind and stress_kind != "steady" else "",
+        "stress": format_value(check.get("stress"), unit, quantity),
+        "allowed": format_value(check.get("allowed"), unit, quantity),
+        "rating": rating_text,
+        "ratio": format_ratio(check.get("ratio")),
+        "status": _text(status),
+        "cls": status_class(status),
+        "rule": _text(check.get("rule")),
+        "rule_source": check.get("rule_source") or "",
+        "corner": _text(corner),
+        "corner_link": bool(corner),
+        "basis": check.get("basis") or "",
+        "note": check.get("note") or "",
+    }
+
+
+def _role_rank(role) -> tuple:
+    try:
+        return (ROLE_ORDER.index(role), "")
+    except ValueError:
+        return (len(ROLE_ORDER), str(role))
+
+
+def _matrix(checks) -> list[dict]:
+    """One table per (role, kind): rows are refs, column groups the kind's quantities."""
+    groups: dict[tuple, dict] = {}
+    for check in checks or ():
+        key = (check.get("role"), check.get("kind"))
+        group = groups.setdefault(key, {"refs": {}, "quantities": []})
+        ref = check.get("ref")
+        row = group["refs"].setdefault(ref, {"part": check.get("part"), "cells": {}})
+        quantity = check.get("quantity")
+        row["cells"].setdefault(quantity, []).append(check)
+        if quantity not in group["quantities"]:
+            group["quantities"].append(quantity)
+    tables = []
+    for (role, kind), group in sorted(groups.items(), key=lambda kv: (_role_rank(kv[0][0]),
+                                                                      str(kv[0][1]))):
+        order = list(KIND_QUANTITIES.get(kind, ()))
+        present = group["quantities"]
+        quantities = [q for q in order if q in present] + [q for q in present if q not in order]
+        rows = []
+        for ref, row in group["refs"].items():
+            cells = []
+            for q in quantities:
+                found = row["cells"].get(q)
+                if not found:
+                    cells.append(None)
+                    continue
+                # Several rows (stress kinds) for one quantity: show the worst.
+                worst = sorted(found, key=lambda c: (_status_rank(c.get("status")),
+                                                     _ratio_key(c)))[0]
+                cell = _check_view(worst)
+                cell["count"] = len(found)
+                cell["kinds"] = ", ".join(_text(c.get("stress_kind")) for c in found)
+                cells.append(cell)
+            rows.append({"ref": _text(ref), "part": _text(row["part"]), "cells": cells})
+        tables.append({
+            "role": _text(role), "kind": _text(kind),
+            "quantities": [{"code": _text(q), "desc": _quantity_desc(q)} for q in quantities],
+            "rows": rows,
+        })
+    return tables
+
+
+def _corner_table(results: dict, ids=None) -> dict:
+    units = results.get("corner_units") or {}
+    columns = corner_columns(results)
+    corners = results.get("corners") or []
+    by_id = {c.get("id"): c for c in corners}
+    selected = corners if ids is None else [by_id.get(i, {"id": i}) for i in ids]
+    counts: dict = {}
+    findings: dict = {}
+    for check in results.get("checks") or ():
+        cid = check.get("corner")
+        counts[cid] = counts.get(cid, 0) + 1
+        if check.get("status") in FINDING_STATUSES:
+            findings[cid] = findings.get(cid, 0) + 1
+    rows = []
+    for corner in selected:
+        values = []
+        for key in columns:
+            value = corner.get(key)
+            if key in ("id", "kind"):
+                values.append(_text(value))
+            else:
+                values.append(format_value(value, units.get(key)))
+        cid = corner.get("id")
+        rows.append({"id": _text(cid), "cells": values, "checks": counts.get(cid, 0),
+                     "findings": findings.get(cid, 0), "known": cid in by_id})
+    return {"columns": [{"key": k, "unit": unit_label(units.get(k))} for k in columns],
+            "rows": rows}
+
+
+def _rule_view(rule: dict) -> dict:
+    quantity = rule.get("quantity")
+    q = QUANTITIES.get(quantity)
+    unit = q.unit if q else None
+    rating = rule.get("rating") or "rating"
+    factor, margin, limit = rule.get("factor"), rule.get("margin"), rule.get("limit")
+
+    def amount(value, u):
+        return value if isinstance(value, str) else format_value(value, u, quantity)
+
+    parts = []
+    base = rating
+    if factor is not None:
+        base = f"{format_number(factor)} \u00d7 {rating}"
+    if margin is not None:
+        base = f"{base} \u2212 {amount(margin, 'K' if unit == 'degC' else unit)}"
+    if factor is not None or margin is not None or limit is None:
+        parts.append(base)
+    if limit is not None:
+        parts.append(f"at most {amount(limit, unit)}")
+
+    def listing(value):
+        if value is None or value == [] or value == "":
+            return "all"
+        if isinstance(value, (list, tuple)):
+            return ", ".join(str(v) for v in value)
+        return str(value)
+
+    return {"id": _text(rule.get("id")), "kind": _text(rule.get("kind")),
+            "technology": listing(rule.get("technology")), "quantity": _text(quantity),
+            "allowed": ", ".join(parts), "stress_kinds": listing(rule.get("stress_kinds")),
+            "source": _text(rule.get("source"))}
+
+
+def _verdict(counts: dict) -> dict:
+    bad = counts.get("fail", 0) + counts.get("unrated", 0)
+    if bad:
+        return {"cls": "fail", "text": "Does not meet the policy: "
+                f"{counts.get('fail', 0)} failing and {counts.get('unrated', 0)} unrated "
+                "check(s)."}
+    if counts.get("not-computed", 0):
+        return {"cls": "not-computed", "text": "Incomplete: "
+                f"{counts['not-computed']} stress(es) could not be computed."}
+    if counts.get("marginal", 0):
+        return {"cls": "marginal", "text": "Every covered check is within the policy; "
+                f"{counts['marginal']} marginal check(s) are close to their limit."}
+    return {"cls": "pass", "text": "Every covered check is within the policy."}
+
+
+def build_view(results: dict, context: dict) -> dict:
+    """Everything the template shows, as text.
+
+    Parameters
+    ----------
+    results
+        The results dict (content of results.json).
+    context
+        Run information: ``date`` and ``tool_version``; optional ``revision`` (design
+        revision or commit) is shown in the header when given.
+
+    Returns
+    -------
+    dict
+        The template's variables.
+    """
+    context = context or {}
+    converter = results.get("converter") or {}
+    checks = results.get("checks") or []
+    counts = count_statuses(results)
+    statuses = list(STATUS_ORDER) + [s for s in counts if s not in STATUS_ORDER]
+    header = [("Topology", _text(converter.get("topology"))),
+              ("Rectifier", _text(converter.get("rectifier"))),
+              ("Modulation", _text(converter.get("modulation"))),
+              ("Policy", _text(results.get("policy"))),
+              ("Tool", f"{(results.get('tool') or {}).get('name') or 'stresscheck'} "
+                       f"{tool_version(results, context)}"),
+              ("Date", _text(context.get("date")))]
+    if context.get("revision"):
+        header.insert(0, ("Design revision", str(context["revision"])))
+    header = [(k, v) for k, v in header
+              if not (k in ("Rectifier", "Modulation") and v == DASH)]
+    gov_ids = governing_corner_ids(results)
+    notes = []
+    for note in results.get("notes") or ():
+        if isinstance(note, dict):
+            notes.append({"level": _text(note.get("level") or "note"),
+                          "text": _text(note.get("text"))})
+        else:
+            notes.append({"level": "note", "text": _text(note)})
+    return {
+        "design": _text(results.get("design")),
+        "schema": _text(results.get("schema")),
+        "header": header,
+        "inputs": [{"role": _text(i.get("role")), "name": _text(i.get("name")),
+                    "sha256": _text(i.get("sha256"))} for i in results.get("inputs") or ()],
+        "cautions": CAUTIONS,
+        "summary": [{"status": s, "cls": status_class(s), "count": counts.get(s, 0)}
+                    for s in statuses],
+        "total": len(checks),
+        "verdict": _verdict(counts),
+        "findings": [_check_view(c) for c in sort_findings(checks)],
+        "findings_have_notes": any(c.get("note") for c in sort_findings(checks)),
+        "matrix": _matrix(checks),
+        "governing": _corner_table(results, gov_ids),
+        "corners": _corner_table(results),
+        "losses": [str(x) for x in results.get("losses_included") or ()],
+        "conventions": [str(x) for x in results.get("conventions") or ()],
+        "notes": notes,
+        "rules": [_rule_view(r) for r in results.get("policy_rules") or ()],
+        "uncovered": [str(x) for x in results.get("uncovered_quantities") or ()],
+        "colours": {**STATUS_COLOURS, "other": OTHER_COLOUR},
+    }
+
+
+# --------------------------------------------------------------------------- rendering
+
+def _template_source(name: str) -> str | None:
+    """Template text from the installed package, else from the repository's templates/."""
+    try:
+        return resources.files("stresscheck.templates").joinpath(name).read_text(
+            encoding="utf-8")
+    except (ModuleNotFoundError, FileNotFoundError, NotADirectoryError, TypeError):
+        pass
+    fallback = Path(__file__).resolve().parents[2] / "templates" / name
+    if fallback.is_file():
+        return fallback.read_text(encoding="utf-8")
+    return None
+
+
+def _environment() -> jinja2.Environment:
+    # autoescape=True unconditionally: select_autoescape would not cover a ".j2" name.
+    return jinja2.Environment(loader=jinja2.FunctionLoader(_template_source),
+                              autoescape=True, undefined=jinja2.StrictUndefined,
+                              trim_blocks=True, lstrip_blocks=True, keep_trailing_newline=True)
+
+
+def render_html(results: dict, context: dict) -> str:
+    """Render the HTML report.
+
+    Parameters
+    ----------
+    results
+        The results dict (what results.json holds). Missing lists are treated as empty
+        and None values are shown as "—".
+    context
+        Run information: ``date`` (shown as given), ``tool_version``; optional
+        ``revision``.
+
+    Returns
+    -------
+    str
+        A self-contained HTML document (inline CSS, no scripts, no external resources)
+        that starts with the stresscheck report marker comment.
+    """
+    template = _environment().get_template(TEMPLATE_NAME)
+    return template.render(**build_view(results, context or {}))

@@ -1,0 +1,92 @@
+"""The results document (results.json) from an evaluation and its checks.
+
+Deterministic: the same inputs give the same bytes (no timestamps, no absolute paths;
+inputs are identified by name and sha256).
+"""
+
+from __future__ import annotations
+
+import hashlib
+
+from . import __version__, schema
+from .checks import ROLE_ORDER, summarise, uncovered
+
+LOSSES_INCLUDED = (
+    "MOSFET conduction: R_DS(on) at the solved junction temperature × I_rms²",
+    "diode forward conduction: v_f0·I_avg + r_d·I_rms²",
+    "capacitor ESR: ESR × I_rms² (ESR as given on the part sheet)",
+    "inductor DCR: DCR × I_rms² (DCR as given, no temperature rise of copper)",
+    "transformer winding copper loss: R × I_rms² per winding",
+)
+LOSSES_NOT_INCLUDED = (
+    "switching (overlap), C_oss, gate-drive and reverse-recovery losses",
+    "core losses of transformer and inductor",
+)
+CONVENTIONS = (
+    "ratio = stress / allowed (percent of allowed); marginal above the policy's "
+    "marginal_above",
+    "stress is the value at the governing corner: the corner with the highest ratio "
+    "(for info rows, the highest stress)",
+    "voltage stresses and flux are taken over every corner, the input surge included "
+    "(stress kind 'transient'); current and thermal stresses over steady and overload "
+    "(current-limit) corners",
+    "the input source supplies only DC: the input (or split) capacitors carry all the AC "
+    "current (conservative for their ripple rating)",
+    "steady-state periodic operation in continuous conduction; no start-up, no leakage "
+    "spikes or ringing (switch and rectifier voltages are before any spike)",
+    "duty ratio = on-time of each switch / its switching period",
+    "values in SI base units; temperatures in degC",
+)
+
+
+def file_sha256(path) -> str:
+    return hashlib.sha256(path.read_bytes()).hexdigest()
+
+
+def build_results(evaluation, checks, policy) -> dict:
+    design, corners = evaluation.design, evaluation.corners
+    parts = {}
+    for comp in design.components:
+        parts.setdefault(comp.part.id, comp.part)
+    inputs = [{"role": "design", "name": design.path.name, "sha256": file_sha256(design.path)}]
+    inputs += [{"role": "part", "name": pid, "sha256": file_sha256(p.path)}
+               for pid, p in sorted(parts.items())]
+    inputs.append({"role": "policy", "name": policy.name, "sha256": policy.sha256})
+
+    rows = sorted(checks, key=lambda c: (ROLE_ORDER[c.role], _ref_key(c.ref)))
+    corner_rows = []
+    duty = evaluation.result.duty
+    for i in range(corners.size):
+        row = corners.row(i)
+        row["duty"] = float(duty[i])
+        row["regime"] = str(evaluation.result.regime[i])
+        corner_rows.append(row)
+    units = dict(corners.units)
+    units["duty"] = "1"
+    return {
+        "schema": schema.RESULTS_SCHEMA,
+        "design": design.name,
+        "policy": policy.name,
+        "summary": summarise(checks),
+        "tool": {"name": "stresscheck", "version": __version__},
+        "converter": {"topology": design.topology, "rectifier": design.rectifier,
+                      "modulation": design.modulation},
+        "inputs": inputs,
+        "losses_included": list(LOSSES_INCLUDED),
+        "losses_not_included": list(LOSSES_NOT_INCLUDED),
+        "conventions": list(CONVENTIONS),
+        "notes": list(evaluation.notes),
+        "uncovered_quantities": uncovered(checks),
+        "policy_rules": [r.as_dict() for r in policy.rules],
+        "corner_keys": list(corners.columns),
+        "corner_units": units,
+        "corners": corner_rows,
+        "checks": [c.as_dict() for c in rows],
+    }
+
+
+def _ref_key(ref: str):
+    """Q2 before Q10: split the trailing number."""
+    head = ref.rstrip("0123456789")
+    tail = ref[len(head):]
+    return (head, int(tail) if tail else -1, ref)

@@ -1,0 +1,148 @@
+"""One source of truth for names: kinds, technologies, topologies, roles, keys, quantities.
+
+Every closed set is a tuple here; loaders reject anything else with the list of valid
+names. Key tables give the dimension of every key (see ``units.DIMENSIONS``) and
+whether a range or tolerance is allowed.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+PART_SCHEMA = "stresscheck.part/1"
+DESIGN_SCHEMA = "stresscheck.design/1"
+POLICY_SCHEMA = "stresscheck.policy/1"
+RESULTS_SCHEMA = "stresscheck.results/1"
+
+KINDS = ("mosfet", "diode", "capacitor", "inductor", "transformer")
+
+TECHNOLOGIES = {
+    "mosfet": ("si", "sic", "gan"),
+    "diode": ("general", "fast-recovery", "ultrafast", "schottky", "sic-schottky"),
+    "capacitor": ("al-electrolytic", "al-polymer", "tantalum", "tantalum-polymer",
+                  "ceramic-class1", "ceramic-class2", "film"),
+    "inductor": ("powder", "ferrite", "other"),
+    "transformer": ("ferrite", "other"),
+}
+
+TOPOLOGIES = ("full-bridge", "half-bridge", "push-pull", "forward", "two-switch-forward",
+              "flyback", "buck", "boost")
+BRIDGE_TOPOLOGIES = ("full-bridge", "half-bridge", "push-pull")
+RECTIFIERS = ("center-tap", "full-bridge", "current-doubler")
+MODULATIONS = ("pwm", "phase-shift")
+
+ROLES = ("switch", "rectifier", "freewheel", "reset", "transformer", "inductor",
+         "input-capacitor", "output-capacitor", "split-capacitor")
+
+# Which part kinds may fill a role.
+ROLE_KINDS = {
+    "switch": ("mosfet",),
+    "rectifier": ("diode", "mosfet"),
+    "freewheel": ("diode", "mosfet"),
+    "reset": ("diode",),
+    "transformer": ("transformer",),
+    "inductor": ("inductor",),
+    "input-capacitor": ("capacitor",),
+    "output-capacitor": ("capacitor",),
+    "split-capacitor": ("capacitor",),
+}
+
+
+@dataclass(frozen=True)
+class Key:
+    dimension: str
+    spread: bool = False  # a range or tolerance is allowed
+
+
+# Part sheet keys: kind -> section -> key -> Key
+PART_KEYS: dict[str, dict[str, dict[str, Key]]] = {
+    "mosfet": {
+        "ratings": {"v_ds": Key("voltage"), "v_gs": Key("voltage"), "i_d": Key("current"),
+                    "i_dm": Key("current"), "t_j_max": Key("temperature"),
+                    "p_d": Key("power")},
+        "electrical": {"r_ds_on": Key("resistance"), "r_ds_on_tc": Key("per_kelvin"),
+                       "r_ds_on_hot": Key("resistance"),
+                       "r_ds_on_hot_temperature": Key("temperature"),
+                       "q_g": Key("charge"), "c_oss": Key("capacitance"),
+                       "t_rise": Key("time"), "t_fall": Key("time"),
+                       "v_sd": Key("voltage"), "r_sd": Key("resistance")},
+        "thermal": {"r_th_jc": Key("thermal_resistance")},
+    },
+    "diode": {
+        "ratings": {"v_rrm": Key("voltage"), "i_f_avg": Key("current"),
+                    "i_fsm": Key("current"), "t_j_max": Key("temperature")},
+        "electrical": {"v_f0": Key("voltage"), "r_d": Key("resistance"),
+                       "q_rr": Key("charge"), "c_j": Key("capacitance")},
+        "thermal": {"r_th_jc": Key("thermal_resistance")},
+    },
+    "capacitor": {
+        "ratings": {"v_rated": Key("voltage"), "i_ripple": Key("current"),
+                    "ripple_frequency": Key("frequency"),
+                    "ripple_temperature": Key("temperature"), "t_max": Key("temperature"),
+                    "life": Key("time")},
+        "electrical": {"capacitance": Key("capacitance", spread=True),
+                       "esr": Key("resistance")},
+        "thermal": {"r_th": Key("thermal_resistance")},
+    },
+    "inductor": {
+        "ratings": {"i_sat": Key("current"), "i_rms": Key("current"),
+                    "t_max": Key("temperature")},
+        "electrical": {"inductance": Key("inductance", spread=True),
+                       "dcr": Key("resistance")},
+        "thermal": {"r_th": Key("thermal_resistance")},
+    },
+    "transformer": {
+        "ratings": {"b_sat": Key("flux_density"), "t_max": Key("temperature")},
+        "electrical": {"primary_turns": Key("count"), "secondary_turns": Key("count"),
+                       "reset_turns": Key("count"),
+                       "magnetizing_inductance": Key("inductance", spread=True),
+                       "leakage_inductance": Key("inductance"), "core_area": Key("area"),
+                       "r_primary": Key("resistance"), "r_secondary": Key("resistance"),
+                       "r_reset": Key("resistance")},
+        "thermal": {"r_th": Key("thermal_resistance")},
+    },
+}
+
+# Electrical keys that must be positive (zero or negative is physically meaningless).
+POSITIVE_KEYS = {"r_ds_on", "r_ds_on_hot", "capacitance", "inductance", "primary_turns",
+                 "secondary_turns", "reset_turns", "magnetizing_inductance", "core_area",
+                 "v_ds", "v_gs", "i_d", "i_dm", "v_rrm", "i_f_avg", "i_fsm", "v_rated",
+                 "i_ripple", "ripple_frequency", "i_sat", "i_rms", "b_sat", "life", "p_d",
+                 "r_th_jc", "r_th"}
+
+
+@dataclass(frozen=True)
+class Quantity:
+    unit: str
+    family: str  # "voltage": evaluated at every corner, surge included; else steady only
+    description: str
+
+
+QUANTITIES: dict[str, Quantity] = {
+    "v_peak": Quantity("V", "voltage", "peak blocking (drain-source or terminal) voltage"),
+    "v_reverse_peak": Quantity("V", "voltage", "peak reverse voltage"),
+    "i_peak": Quantity("A", "current", "largest magnitude of the device current"),
+    "i_rms": Quantity("A", "current", "rms of the whole device current"),
+    "i_avg": Quantity("A", "current", "mean forward current"),
+    "i_ripple_rms": Quantity("A", "current", "rms current through the capacitor"),
+    "p_loss": Quantity("W", "thermal", "power dissipated in the device"),
+    "t_j": Quantity("degC", "thermal", "junction temperature"),
+    "t_hotspot": Quantity("degC", "thermal", "hot-spot temperature"),
+    "b_peak": Quantity("T", "voltage", "peak flux density in the core"),
+    "life": Quantity("s", "thermal", "expected life at the hot-spot temperature"),
+}
+
+# Quantities per part kind, in report order.
+KIND_QUANTITIES = {
+    "mosfet": ("v_peak", "i_peak", "i_rms", "p_loss", "t_j"),
+    "diode": ("v_reverse_peak", "i_avg", "i_rms", "i_peak", "p_loss", "t_j"),
+    "capacitor": ("v_peak", "i_ripple_rms", "t_hotspot", "life"),
+    "inductor": ("i_peak", "i_rms", "t_hotspot"),
+    "transformer": ("b_peak", "t_hotspot"),
+}
+
+STRESS_KINDS = ("steady", "overload", "transient")
+STATUSES = ("fail", "not-computed", "unrated", "marginal", "pass", "info")
+
+# Capacitor technologies for which a life figure is computed (wear-out by electrolyte).
+LIFE_TECHNOLOGIES = ("al-electrolytic", "al-polymer")

@@ -1,0 +1,1 @@
+"""Cross-checks against ngspice: one corner of a design as a transient netlist."""

@@ -1,0 +1,77 @@
+"""The circuit of one design at one corner, as plain numbers [SI units].
+
+This is the hand-over between the analytic engine and the ngspice netlist builder: the
+engine fills it from a design and a corner (with the electro-thermal solution, e.g.
+R_DS(on) at the junction temperature it found), the builder turns it into a netlist.
+Every position holds the *equivalent* of its paralleled devices (R_DS(on)/parallel, the
+capacitance of the whole bank, ...); per-device values are divided out by the caller.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+
+@dataclass
+class DiodeModel:
+    v_f0: float  # [V] forward drop at zero current of the straight-line model
+    r_d: float  # [ohm] slope resistance
+
+
+@dataclass
+class SwitchModel:
+    r_on: float  # [ohm] R_DS(on) of the position at the solved junction temperature
+    body: DiodeModel  # antiparallel body diode
+
+
+@dataclass
+class CapacitorModel:
+    capacitance: float  # [F] whole bank of the position
+    esr: float  # [ohm] whole bank of the position
+
+
+@dataclass
+class Circuit:
+    """One corner of a converter.
+
+    Conventions
+    - ``duty`` is the on-time of each switch as a fraction of its switching period 1/fs.
+      For the bridge family each switch (full-bridge: each diagonal pair) conducts once per
+      period, so the output inductor sees 2·fs.
+    - Turns: push-pull ``n_p`` is per primary half; center-tap ``n_s`` per secondary half.
+    - ``l_m`` is the magnetizing inductance referred to ``n_p`` turns (push-pull: across
+      one primary half).
+    - Switch order: full-bridge [Q_A_high, Q_A_low, Q_B_high, Q_B_low] where the diagonal
+      pair (0, 3) conducts first in each period and (2, 1) second; half-bridge
+      [high, low]; push-pull [first half, second half]. Rectifier order: center-tap
+      [conducts with the first half-cycle, with the second]; full-bridge rectifier
+      [D1, D4 conduct with the first half-cycle; D2, D3 (indexes 1, 2) with the second].
+    - The input source is ``v_in`` behind a choke that passes DC only, so the input (or
+      split) capacitors carry all the AC current.
+    - The load draws ``i_out`` at the target output voltage: a resistor v_out/i_out.
+    """
+
+    topology: str  # full-bridge | half-bridge | push-pull | ...
+    rectifier: str | None  # center-tap | full-bridge | ...
+    v_in: float  # [V]
+    v_out: float  # [V] regulation target (mean output voltage)
+    i_out: float  # [A] mean load current
+    f_sw: float  # [Hz] switching frequency of each switch
+    duty: float  # [1] analytic duty ratio, a starting point for the regulation loop
+    dead_time: float = 0.0  # [s]
+    switches: list[SwitchModel] = field(default_factory=list)
+    rectifiers: list[DiodeModel] = field(default_factory=list)
+    n_p: float = 1.0  # primary turns
+    n_s: float = 1.0  # secondary turns
+    l_m: float = 1.0  # [H]
+    r_primary: float = 0.0  # [ohm] per primary winding (push-pull: per half)
+    r_secondary: float = 0.0  # [ohm] per secondary winding (center-tap: per half)
+    core_area: float | None = None  # [m^2]
+    l_out: float = 1.0  # [H] output inductor
+    dcr_out: float = 0.0  # [ohm]
+    c_out: CapacitorModel | None = None
+    c_in: CapacitorModel | None = None  # full-bridge, push-pull
+    c_split: list[CapacitorModel] = field(default_factory=list)  # half-bridge [top, bottom]
+    # Analytic warm start for the simulation, at the start of the first on-interval:
+    i_l_start: float = 0.0  # [A] output inductor current
+    i_m_start: float = 0.0  # [A] magnetizing current (referred to n_p)

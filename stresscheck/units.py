@@ -1,0 +1,204 @@
+"""Quantities: parsing of "100 kHz"-style strings into SI floats, with dimension checks.
+
+Parsing of prefixes and unit symbols is delegated to pint; this module only splits the
+number from the unit (pint cannot parse a negative offset temperature such as "-40 degC"
+as one expression) and checks the dimension expected for each key.
+Everything inside stresscheck is SI base units, temperatures in degC, temperature
+differences in K.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+from functools import lru_cache
+
+import pint
+
+from .errors import InputError
+
+_NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
+
+
+@lru_cache(maxsize=1)
+def registry() -> pint.UnitRegistry:
+    ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=False)
+    return ureg
+
+
+# Dimension name -> (pint reference unit, SI unit symbol used in outputs).
+# "temperature" is an absolute temperature in degC; "temperature_difference" in K.
+DIMENSIONS: dict[str, tuple[str, str]] = {
+    "voltage": ("volt", "V"),
+    "current": ("ampere", "A"),
+    "frequency": ("hertz", "Hz"),
+    "inductance": ("henry", "H"),
+    "capacitance": ("farad", "F"),
+    "resistance": ("ohm", "ohm"),
+    "power": ("watt", "W"),
+    "time": ("second", "s"),
+    "charge": ("coulomb", "C"),
+    "energy": ("joule", "J"),
+    "temperature": ("degC", "degC"),
+    "temperature_difference": ("kelvin", "K"),
+    "thermal_resistance": ("kelvin / watt", "K/W"),
+    "per_kelvin": ("1 / kelvin", "1/K"),
+    "flux_density": ("tesla", "T"),
+    "area": ("meter ** 2", "m^2"),
+    "fraction": ("dimensionless", "1"),
+    "count": ("dimensionless", "1"),
+}
+
+
+def unit_symbol(dimension: str) -> str:
+    return DIMENSIONS[dimension][1]
+
+
+def parse_quantity(value, dimension: str, path, key: str) -> float:
+    """Parse one scalar quantity into SI base units [SI unit of ``dimension``].
+
+    Accepts a bare number (already SI) or a string "<number> <unit>".
+    Raises InputError naming ``path`` and ``key`` for anything else.
+    """
+    if dimension not in DIMENSIONS:  # programming error, not user error
+        raise KeyError(dimension)
+    if isinstance(value, bool):
+        raise InputError(path, key, f"expected a {dimension} value, got a boolean")
+    if isinstance(value, (int, float)):
+        number = float(value)
+        _check_finite(number, path, key)
+        return number
+    if not isinstance(value, str):
+        raise InputError(path, key, f"expected a {dimension} value such as "
+                         f"\"{_example(dimension)}\", got {type(value).__name__}")
+    match = _NUMBER.match(value)
+    if not match:
+        raise InputError(path, key, f"cannot read {value!r} as a quantity; expected a "
+                         f"number and a unit, such as \"{_example(dimension)}\"")
+    number = float(match.group(1))
+    _check_finite(number, path, key)
+    unit_text = match.group(2)
+    if not unit_text:
+        return number
+    ureg = registry()
+    try:
+        unit = ureg.Unit(_normalise_unit(unit_text))
+    except Exception:
+        raise InputError(path, key, f"unknown unit {unit_text!r} in {value!r}; expected a "
+                         f"{dimension} unit such as \"{_example(dimension)}\"") from None
+    reference = ureg.Unit(DIMENSIONS[dimension][0])
+    if dimension == "temperature":
+        if unit.dimensionality != reference.dimensionality:
+            raise _wrong_dimension(path, key, value, dimension)
+        return float(ureg.Quantity(number, unit).to("degC").magnitude)
+    if unit.dimensionality != reference.dimensionality:
+        raise _wrong_dimension(path, key, value, dimension)
+    if dimension == "temperature_difference":
+        # "25 K" and "25 delta_degC" are both differences; "25 degC" is read as 25 K too.
+        if str(unit) in ("degree_Celsius", "degC"):
+            return number
+    try:
+        result = float(ureg.Quantity(number, unit).to(reference).magnitude)
+    except Exception:
+        raise _wrong_dimension(path, key, value, dimension) from None
+    _check_finite(result, path, key)
+    return result
+
+
+def _normalise_unit(text: str) -> str:
+    text = text.replace("Ω", "ohm").replace("Ω", "ohm").replace("°C", "degC")
+    text = text.replace("°", "deg")
+    return text
+
+
+def _check_finite(number: float, path, key):
+    if not math.isfinite(number):
+        raise InputError(path, key, f"value must be a finite number, got {number}")
+
+
+def _wrong_dimension(path, key, value, dimension):
+    return InputError(path, key, f"{value!r} is not a {dimension.replace('_', ' ')}; "
+                      f"expected a value such as \"{_example(dimension)}\"")
+
+
+_EXAMPLES = {
+    "voltage": "48 V", "current": "10 A", "frequency": "100 kHz", "inductance": "10 uH",
+    "capacitance": "4.7 uF", "resistance": "12 mohm", "power": "2 W", "time": "50 ns",
+    "charge": "30 nC", "energy": "10 uJ", "temperature": "75 degC",
+    "temperature_difference": "25 K", "thermal_resistance": "3 K/W", "per_kelvin": "0.5 %/K",
+    "flux_density": "300 mT", "area": "80 mm^2", "fraction": "20 %", "count": "2",
+}
+
+
+def _example(dimension: str) -> str:
+    return _EXAMPLES.get(dimension, "1")
+
+
+@dataclass(frozen=True)
+class Spread:
+    """A value given as a nominal with its extremes [SI units].
+
+    ``nom`` is always set (the mean of min and max when not given).
+    ``min``/``max`` equal ``nom`` for a plain value.
+    """
+
+    min: float
+    nom: float
+    max: float
+
+    @property
+    def is_range(self) -> bool:
+        return self.min != self.max
+
+    def extremes(self) -> tuple[float, ...]:
+        return (self.min, self.max) if self.is_range else (self.nom,)
+
+    def levels(self) -> tuple[float, ...]:
+        """min, nom, max without repeats (for the input voltage)."""
+        out: list[float] = []
+        for v in (self.min, self.nom, self.max):
+            if v not in out:
+                out.append(v)
+        return tuple(out)
+
+
+def parse_spread(value, dimension: str, path, key: str, *, allow_range: bool = True) -> Spread:
+    """Parse a value, a range {min, nom, max} or a tolerance {nom, tolerance} [SI].
+
+    Contract: any of min/nom/max may be left out but not all; a tolerance is a fraction.
+    """
+    if isinstance(value, dict):
+        if not allow_range:
+            raise InputError(path, key, "a single value is expected here, not a range")
+        allowed = {"min", "nom", "max", "tolerance"}
+        unknown = sorted(set(value) - allowed)
+        if unknown:
+            raise InputError(path, f"{key}.{unknown[0]}",
+                             "unknown field in a range; expected min, nom, max or tolerance")
+        if "tolerance" in value:
+            if "nom" not in value:
+                raise InputError(path, key, "a tolerance needs a nominal value 'nom'")
+            if "min" in value or "max" in value:
+                raise InputError(path, key, "give either min/max or a tolerance, not both")
+            nom = parse_quantity(value["nom"], dimension, path, f"{key}.nom")
+            tol = parse_quantity(value["tolerance"], "fraction", path, f"{key}.tolerance")
+            if not 0 <= tol < 1:
+                raise InputError(path, f"{key}.tolerance",
+                                 "tolerance must be between 0 % and 100 %")
+            lo, hi = sorted((nom * (1 - tol), nom * (1 + tol)))
+            return Spread(lo, nom, hi)
+        parts = {k: parse_quantity(value[k], dimension, path, f"{key}.{k}")
+                 for k in ("min", "nom", "max") if k in value}
+        if not parts:
+            raise InputError(path, key, "a range needs at least one of min, nom, max")
+        lo = parts.get("min", parts.get("nom", parts.get("max")))
+        hi = parts.get("max", parts.get("nom", parts.get("min")))
+        if lo > hi:
+            raise InputError(path, key, f"min ({lo:g}) is above max ({hi:g})")
+        nom = parts.get("nom", (lo + hi) / 2)
+        if not lo <= nom <= hi:
+            raise InputError(path, f"{key}.nom", "nom must lie between min and max")
+        return Spread(lo, nom, hi)
+    number = parse_quantity(value, dimension, path, key)
+    return Spread(number, number, number)
