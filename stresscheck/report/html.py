@@ -260,10 +260,13 @@ def _check_view(check: dict) -> dict:
     quantity = check.get("quantity")
     rating = check.get("rating")
     rating_text = ""
-    if rating is not None or check.get("rating_key"):
+    rating_key = check.get("rating_key")
+    if rating is not None:
         rating_text = f"rating {format_value(rating, unit, quantity)}"
-        if check.get("rating_key"):
-            rating_text += f" ({check['rating_key']})"
+        if rating_key:
+            rating_text += f" ({rating_key})"
+    elif rating_key:
+        rating_text = f"no {rating_key} rating"
     stress_kind = check.get("stress_kind")
     status = check.get("status")
     corner = check.get("corner")
@@ -357,13 +360,14 @@ def _corner_table(results: dict, ids=None) -> dict:
         for key in columns:
             value = corner.get(key)
             if key in ("id", "kind"):
-                values.append(_text(value))
+                values.append({"text": _text(value), "num": False})
             else:
-                values.append(format_value(value, units.get(key)))
+                values.append({"text": format_value(value, units.get(key)), "num": True})
         cid = corner.get("id")
         rows.append({"id": _text(cid), "cells": values, "checks": counts.get(cid, 0),
                      "findings": findings.get(cid, 0), "known": cid in by_id})
-    return {"columns": [{"key": k, "unit": unit_label(units.get(k))} for k in columns],
+    return {"columns": [{"key": k, "unit": unit_label(units.get(k)),
+                         "text": k in ("id", "kind")} for k in columns],
             "rows": rows}
 
 

@@ -21,8 +21,9 @@ from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter
 
 from .cautions import CAUTIONS
-from .html import (FINDING_STATUSES, OTHER_COLOUR, STATUS_COLOURS, corner_columns,
-                   count_statuses, display_value, sort_findings, tool_version, unit_label)
+from .html import (OTHER_COLOUR, STATUS_COLOURS, STATUS_ORDER,
+                   corner_columns, count_statuses, display_value, sort_findings, tool_version,
+                   unit_label)
 
 CHECK_COLUMNS = ("ref", "role", "part", "kind", "quantity", "unit", "stress", "allowed",
                  "rating", "rating key", "ratio", "status", "rule", "rule source", "corner",
@@ -59,15 +60,17 @@ def put(ws, row: int, column: int, value):
     if value is None or isinstance(value, bool):
         cell.value = value
     elif isinstance(value, (int, float)):
-        cell.value = value if math.isfinite(value) else str(value)
+        if math.isfinite(value):
+            cell.value = value
+        else:
+            cell.value = str(value)
+            cell.data_type = "s"
     else:
         text = _clean_text(str(value))
         cell.value = text
         cell.data_type = "s"  # openpyxl would store "=..." as a formula otherwise
         if text.startswith(_FORMULA_START):
             cell.quotePrefix = True  # stays text when a user edits the cell
-    if isinstance(cell.value, str):
-        cell.data_type = "s"
     return cell
 
 
@@ -184,8 +187,9 @@ def _about_sheet(ws, results: dict, context: dict) -> None:
     line("ratio", "stress / allowed, as percent of allowed (100 % = the policy limit)")
 
     section("Summary")
-    for status, count in count_statuses(results).items():
-        line(status, count)
+    counts = count_statuses(results)
+    for status in list(STATUS_ORDER) + [s for s in counts if s not in STATUS_ORDER]:
+        line(status, counts[status])
 
     section("Inputs")
     line("role", "name", "sha256", bold=True)
@@ -313,4 +317,4 @@ def render_xlsx(results: dict, context: dict) -> bytes:
     return _save(wb, stamp)
 
 
-__all__ = ["render_xlsx", "CHECK_COLUMNS", "FINDING_STATUSES", "put"]
+__all__ = ["render_xlsx", "CHECK_COLUMNS", "put"]

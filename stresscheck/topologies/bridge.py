@@ -85,14 +85,12 @@ def evaluate(st: Stage) -> StageResult:
                         np.stack([n * i_max + i_m, z, z, z], 1))
         i_b = grid.wave(np.stack([z, z, n * i_min - i_m, z], 1),
                         np.stack([z, z, n * i_max + i_m, z], 1))
-        half = i_l * 0.5
         share = (i_m / (2 * n))
         # rectifier that conducts with the first half-cycle, and with the second
-        first = grid.wave(np.stack([i_min, i_max / 2 - share, z, i_min / 2 + share], 1),
-                          np.stack([i_max, i_min / 2 - share, z, i_max / 2 + share], 1))
-        second = grid.wave(np.stack([z, i_max / 2 + share, i_min, i_min / 2 - share], 1),
-                           np.stack([z, i_min / 2 + share, i_max, i_max / 2 - share], 1))
-        del half
+        first = grid.wave(np.stack([i_min, i_max / 2 - share, z, i_max / 2 + share], 1),
+                          np.stack([i_max, i_min / 2 - share, z, i_min / 2 + share], 1))
+        second = grid.wave(np.stack([z, i_max / 2 + share, i_min, i_max / 2 - share], 1),
+                           np.stack([z, i_min / 2 + share, i_max, i_min / 2 - share], 1))
 
         currents = {("inductor", 0): i_l, ("output-capacitor", 0): i_l - io}
         if top == "full-bridge":

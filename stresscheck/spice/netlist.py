@@ -1,0 +1,340 @@
+"""ngspice transient netlists of one corner of a bridge-family converter.
+
+Topologies: ``full-bridge`` (PWM), ``half-bridge``, ``push-pull``; rectifiers
+``center-tap`` and ``full-bridge``. The models follow the project's ngspice notes
+(/work/shared/reference/ngspice-notes.md): ``S`` switches with an antiparallel body diode,
+an ideal transformer built from controlled sources plus one magnetizing inductance,
+straight-line diodes (offset source + near-ideal diode + slope resistor), L with DCR,
+C with ESR and a 0 V sense source, and a DC input behind a damped choke.
+
+Names shared with the measurement code (all lower case, as ngspice reports them):
+
+======================  ==========================================================
+``vq{k}``               sense source in the drain lead of switch ``k`` (switch and body
+                        diode together); drain node ``q{k}d``, source node per layout
+``vb{k}``               offset source of the body diode of switch ``k``: its current
+                        is the body-diode forward current
+``vd{k}``               offset source of rectifier ``k``: its current is the forward
+                        current; anode/cathode nodes per layout
+``lout``                output inductor, current from the rectifier node ``rect``
+                        towards the output node ``out``
+``lm``                  magnetizing inductance, current from the reference winding's
+                        dot to its undotted end (ramps up in the first on-interval)
+``lch``                 input choke (source ``vin`` -> node ``bus``)
+``vco`` / ``vci``       output / input capacitor current sense (into the capacitor)
+``vct`` / ``vcb``       half-bridge top / bottom split-capacitor current sense
+``vp1``, ``vp2``        primary winding (half) current sense, into the dot
+``vw{k}``               secondary winding ``k`` current sense, into the dot
+======================  ==========================================================
+
+Initial conditions (``ic``) use the keys of :data:`IC_KEYS`: inductor currents [A] in the
+element's positive direction and capacitor voltages [V] across the ideal capacitance
+(ESR excluded).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+from .circuit import Circuit, DiodeModel
+
+TOPOLOGIES = ("full-bridge", "half-bridge", "push-pull")
+RECTIFIERS = ("center-tap", "full-bridge")
+CHOKES = ("short", "real")
+
+#: Near-ideal diode of the straight-line model: saturation current [A], emission coefficient.
+DIODE_IS = 1e-12
+DIODE_N = 0.05
+#: Thermal voltage at ngspice's default TNOM = 27 degC [V] (k/q = 8.617087e-5 V/K in ngspice).
+V_THERMAL = 8.617087e-5 * 300.15
+#: Switch off resistance [ohm] and gate thresholds [V] for 0/1 V gate pulses: on above
+#: VT + VH = 0.7 V, off below VT - VH = 0.3 V, so the on-time (0.7 ns into the rise to
+#: 0.7 ns into the fall) equals the pulse's mid-edge to mid-edge width.
+R_OFF = 1e6
+SW_VT, SW_VH = 0.5, 0.2
+T_EDGE = 1e-9  # [s] gate pulse rise and fall
+#: Input choke resonance with the input capacitance, as a fraction of f_sw: the real
+#: choke passes DC only (the bridge draws its AC at f_sw or 2 f_sw, (1/100)^2 of the
+#: ripple power leaks into the damping branch), the short one settles ten times faster.
+CHOKE_RESONANCE = {"short": 0.1, "real": 0.01}
+R_FLOAT = 1e7  # [ohm] common-mode anchor of a floating secondary
+STEPS_PER_PERIOD = 400  # maximum time step Ts/400
+IC_KEYS = ("lout", "lm", "lch", "cout", "cin", "ctop", "cbot")
+
+
+@dataclass
+class Layout:
+    """Node and element names of one netlist, for the measurement code.
+
+    Attributes
+    ----------
+    switches : list of (sense, drain, source, body) names per switch position
+    rectifiers : list of (offset source, anode node, cathode node) per rectifier position
+    caps : dict position key -> (sense source, plus node, minus node, cap + node, cap - node)
+    windings : dict winding label -> (sense source, resistance [ohm])
+    """
+
+    switches: list[tuple[str, str, str, str]] = field(default_factory=list)
+    rectifiers: list[tuple[str, str, str]] = field(default_factory=list)
+    caps: dict[tuple[str, int], tuple[str, str, str, str, str]] = field(default_factory=dict)
+    windings: dict[str, tuple[str, float]] = field(default_factory=dict)
+    r_load: float = 1.0  # [ohm]
+    r_damp: float = 1.0  # [ohm] choke damping resistor, between ``vsrc`` and ``bus``
+    l_choke: float = 1.0  # [H]
+
+
+def check_supported(c: Circuit) -> None:
+    """Raise ``ValueError`` unless ``c`` is a bridge-family circuit this module builds."""
+    if c.topology not in TOPOLOGIES:
+        raise ValueError(f"topology {c.topology!r} not supported; valid: {', '.join(TOPOLOGIES)}")
+    if c.rectifier not in RECTIFIERS:
+        raise ValueError(f"rectifier {c.rectifier!r} not supported; valid: {', '.join(RECTIFIERS)}")
+    n_sw = {"full-bridge": 4, "half-bridge": 2, "push-pull": 2}[c.topology]
+    n_rect = {"center-tap": 2, "full-bridge": 4}[c.rectifier]
+    if len(c.switches) != n_sw or len(c.rectifiers) != n_rect:
+        raise ValueError(f"{c.topology}/{c.rectifier} needs {n_sw} switches and {n_rect} "
+                         f"rectifiers, got {len(c.switches)} and {len(c.rectifiers)}")
+    if c.c_out is None:
+        raise ValueError("c_out is missing")
+    if c.topology == "half-bridge" and len(c.c_split) != 2:
+        raise ValueError("half-bridge needs c_split = [top, bottom]")
+    if c.topology != "half-bridge" and c.c_in is None:
+        raise ValueError(f"{c.topology} needs c_in")
+
+
+def diode_offset(d: DiodeModel, i_ref: float) -> float:
+    """Offset source of the straight-line diode model [V].
+
+    The near-ideal diode adds n·V_T·ln(1 + I/I_S) (about 36 mV at 1 A); the offset is
+    chosen so the drop is exactly ``v_f0 + r_d·i_ref`` at ``i_ref`` [A] and within about
+    ±1.3 mV per decade of current around it.
+    """
+    return d.v_f0 - DIODE_N * V_THERMAL * math.log1p(max(i_ref, 1e-6) / DIODE_IS)
+
+
+def switching_period(c: Circuit) -> float:
+    """Switching period of each switch, 1/f_sw [s]."""
+    return 1.0 / c.f_sw
+
+
+def choke_values(c: Circuit, choke: str) -> tuple[float, float]:
+    """Input choke inductance [H] and parallel damping resistance [ohm].
+
+    The choke resonates with the input (or total split) capacitance at
+    ``CHOKE_RESONANCE[choke]·f_sw``; the damping resistor equals the characteristic
+    impedance sqrt(L/C), which damps that resonance to a quality factor near one.
+    """
+    if choke not in CHOKES:
+        raise ValueError(f"choke {choke!r} not known; valid: {', '.join(CHOKES)}")
+    if c.topology == "half-bridge":
+        cap = c.c_split[0].capacitance + c.c_split[1].capacitance
+    else:
+        cap = c.c_in.capacitance
+    w_r = 2 * math.pi * CHOKE_RESONANCE[choke] * c.f_sw
+    l_ch = 1.0 / (w_r * w_r * cap)
+    return l_ch, math.sqrt(l_ch / cap)
+
+
+def analytic_ic(c: Circuit) -> dict[str, float]:
+    """Initial conditions of a first run from the analytic values [A, V]."""
+    p_in = c.v_out * c.i_out / 0.9  # choke DC; the first runs correct it
+    ic = {"lout": c.i_l_start, "lm": c.i_m_start, "lch": p_in / c.v_in, "cout": c.v_out}
+    if c.topology == "half-bridge":
+        ic["ctop"] = ic["cbot"] = c.v_in / 2
+    else:
+        ic["cin"] = c.v_in
+    return ic
+
+
+class _Deck:
+    def __init__(self):
+        self.lines: list[str] = []
+
+    def add(self, line: str) -> None:
+        self.lines.append(line)
+
+    def res(self, name: str, a: str, b: str, r: float) -> None:
+        """A resistor, or a 0 V source where r = 0 (an exact short)."""
+        self.add(f"R{name} {a} {b} {r:.12g}" if r > 0 else f"V{name}_0 {a} {b} 0")
+
+    def diode(self, tag: str, anode: str, cathode: str, d: DiodeModel, i_ref: float) -> str:
+        """Straight-line diode; returns the offset source, whose current is the forward current."""
+        src = f"v{tag}"
+        self.add(f"{src} {anode} {tag}_1 DC {diode_offset(d, i_ref):.9g}")
+        self.add(f"D{tag} {tag}_1 {tag}_2 didl")
+        self.res(f"{tag}", f"{tag}_2", cathode, d.r_d)
+        return src
+
+    def cap(self, tag: str, plus: str, minus: str, capacitance: float, esr: float,
+            v0: float) -> tuple[str, str, str, str, str]:
+        """C with ESR and a sense source (plus -> ESR -> C -> sense -> minus)."""
+        self.res(f"{tag}_esr", plus, f"{tag}_e", esr)
+        self.add(f"C{tag} {tag}_e {tag}_s {capacitance:.12g} IC={v0:.12g}")
+        self.add(f"v{tag} {tag}_s {minus} 0")
+        return (f"v{tag}", plus, minus, f"{tag}_e", f"{tag}_s")
+
+
+def _gate(deck: _Deck, name: str, delay: float, on_time: float, period: float) -> None:
+    width = max(on_time - T_EDGE, T_EDGE)
+    deck.add(f"Vg{name} g{name} 0 PULSE(0 1 {delay:.12g} {T_EDGE:g} {T_EDGE:g} "
+             f"{width:.12g} {period:.12g})")
+
+
+def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
+          ic: dict | None, choke: str) -> tuple[str, Layout]:
+    """Netlist text and its :class:`Layout`; see :func:`build_netlist`."""
+    check_supported(c)
+    ts = switching_period(c)
+    ic = {**analytic_ic(c), **(ic or {})}
+    lay = Layout()
+    d = _Deck()
+    d.add(f"* stresscheck reference: {c.topology} / {c.rectifier} rectifier, "
+          f"v_in={c.v_in:g} V, v_out={c.v_out:g} V, i_out={c.i_out:g} A, "
+          f"f_sw={c.f_sw:g} Hz, duty={duty:.9f}, choke={choke}")
+    d.add(f".options rshunt=1e9 reltol=1e-5")
+    d.add(f".model didl D(IS={DIODE_IS:g} N={DIODE_N:g})")
+    for k, sw in enumerate(c.switches):
+        d.add(f".model sw{k} SW(RON={sw.r_on:.9g} ROFF={R_OFF:g} VT={SW_VT:g} VH={SW_VH:g})")
+
+    # Input: source -> choke || damping -> bus, and the input (or split) capacitors.
+    l_ch, r_damp = choke_values(c, choke)
+    lay.l_choke, lay.r_damp = l_ch, r_damp
+    d.add(f"Vin vsrc 0 DC {c.v_in:.12g}")
+    d.add(f"Lch vsrc bus {l_ch:.12g} IC={ic['lch']:.12g}")
+    d.add(f"Rdamp vsrc bus {r_damp:.12g}")
+    if c.topology == "half-bridge":
+        top, bot = c.c_split
+        lay.caps[("split-capacitor", 0)] = d.cap("ct", "bus", "mid", top.capacitance,
+                                                  top.esr, ic["ctop"])
+        lay.caps[("split-capacitor", 1)] = d.cap("cb", "mid", "0", bot.capacitance,
+                                                  bot.esr, ic["cbot"])
+    else:
+        lay.caps[("input-capacitor", 0)] = d.cap("ci", "bus", "0", c.c_in.capacitance,
+                                                  c.c_in.esr, ic["cin"])
+
+    # Switches with body diodes, a sense source in each drain lead.
+    on = duty * ts
+    i_body = c.i_out * c.n_s / c.n_p
+    if c.topology == "full-bridge":
+        legs = [("bus", "pa", "1"), ("pa", "0", "2"), ("bus", "pb", "2"), ("pb", "0", "1")]
+        _gate(d, "1", 0.0, on, ts)
+        _gate(d, "2", ts / 2, on, ts)
+    elif c.topology == "half-bridge":
+        legs = [("bus", "sw", "1"), ("sw", "0", "2")]
+        _gate(d, "1", 0.0, on, ts)
+        _gate(d, "2", ts / 2, on, ts)
+    else:
+        legs = [("d1", "0", "1"), ("d2", "0", "2")]
+        _gate(d, "1", 0.0, on, ts)
+        _gate(d, "2", ts / 2, on, ts)
+    for k, ((drain, source, gate), sw) in enumerate(zip(legs, c.switches)):
+        d.add(f"vq{k} {drain} q{k}d 0")
+        d.add(f"S{k} q{k}d {source} g{gate} 0 sw{k} OFF")
+        body = d.diode(f"b{k}", source, f"q{k}d", sw.body, i_body)
+        lay.switches.append((f"vq{k}", drain, source, body))
+
+    # Transformer: reference winding (dot p1, undot pu) with Lm; E/F for the others.
+    if c.topology == "full-bridge":
+        d.add("vp1 pa p1r 0")
+        d.res("p1", "p1r", "p1", c.r_primary)
+        pu = "pb"
+    elif c.topology == "half-bridge":
+        d.add("vp1 sw p1r 0")
+        d.res("p1", "p1r", "p1", c.r_primary)
+        pu = "mid"
+    else:
+        # Half 1: bus (centre tap) -> dot p1 ... undot d1; half 2: bus ... dot d2.
+        d.add("vp1 bus p1r 0")
+        d.res("p1", "p1r", "p1", c.r_primary)
+        pu = "d1"
+        d.add("vp2 d2 p2d 0")
+        d.add("Ep2 p2d p2u p1 d1 1")
+        d.add("Fp2 p1 d1 vp2 -1")
+        d.res("p2", "p2u", "bus", c.r_primary)
+        lay.windings["primary-2"] = ("vp2", c.r_primary)
+    lay.windings["primary-1" if c.topology == "push-pull" else "primary"] = ("vp1", c.r_primary)
+    l_m = c.l_m if math.isfinite(c.l_m) and c.l_m > 0 else 1e3
+    d.add(f"Lm p1 {pu} {l_m:.12g} IC={ic['lm']:.12g}")
+    ratio = c.n_s / c.n_p
+
+    def winding(k: int, dot: str, undot: str) -> None:
+        d.add(f"vw{k} {dot} w{k}i 0")
+        d.res(f"w{k}", f"w{k}i", f"w{k}e", c.r_secondary)
+        d.add(f"Ew{k} w{k}e {undot} p1 {pu} {ratio:.12g}")
+        d.add(f"Fw{k} p1 {pu} vw{k} {-ratio:.12g}")
+        lay.windings[f"secondary-{k + 1}"] = (f"vw{k}", c.r_secondary)
+
+    # Rectifier into node rect; output return is ground.
+    i_rect = c.i_out / 2
+    if c.rectifier == "center-tap":
+        winding(0, "sa", "0")  # V(sa) = +n·Vp
+        winding(1, "0", "sb")  # V(sb) = -n·Vp
+        pins = [("sa", "rect"), ("sb", "rect")]
+    else:
+        winding(0, "sa", "sb")
+        d.add(f"Rfloat sb 0 {R_FLOAT:g}")
+        pins = [("sa", "rect"), ("sb", "rect"), ("0", "sa"), ("0", "sb")]
+    for k, ((anode, cathode), dm) in enumerate(zip(pins, c.rectifiers)):
+        lay.rectifiers.append((d.diode(f"d{k}", anode, cathode, dm, i_rect), anode, cathode))
+
+    # Output filter and load.
+    d.res("dcr", "rect", "lo", c.dcr_out)
+    d.add(f"Lout lo out {c.l_out:.12g} IC={ic['lout']:.12g}")
+    lay.caps[("output-capacitor", 0)] = d.cap("co", "out", "0", c.c_out.capacitance,
+                                               c.c_out.esr, ic["cout"])
+    lay.r_load = c.v_out / c.i_out
+    d.add(f"Rload out 0 {lay.r_load:.12g}")
+
+    t_start = max(t_stop - t_measure - ts / STEPS_PER_PERIOD, 0.0)
+    h = ts / STEPS_PER_PERIOD
+    d.add(f".tran {h:.12g} {t_stop:.12g} {t_start:.12g} {h:.12g} uic")
+    d.add(".end")
+    return "\n".join(d.lines) + "\n", lay
+
+
+def build_netlist(c: Circuit, duty: float, t_stop: float, t_measure: float,
+                  ic: dict | None, choke: str) -> str:
+    """Transient netlist of one corner.
+
+    Parameters
+    ----------
+    c : Circuit
+        The corner (bridge family).
+    duty : float
+        On-time of each switch (full-bridge: each diagonal pair) per period [1].
+    t_stop : float
+        Simulated time from the initial conditions [s]; a whole number of periods.
+    t_measure : float
+        Length of the window at the end whose time points are saved [s]; saving starts
+        one maximum step earlier so the window's first instant can be interpolated.
+    ic : dict or None
+        Initial state by :data:`IC_KEYS` [A, V]; missing keys come from
+        :func:`analytic_ic`.
+    choke : {"short", "real"}
+        Input choke, see :data:`CHOKE_RESONANCE`.
+
+    Returns
+    -------
+    str
+        The deck, ending with ``.tran ... uic`` and ``.end`` (no ``.control`` block).
+    """
+    return build(c, duty, t_stop, t_measure, ic, choke)[0]
+
+
+def diode_sweep_netlist(d: DiodeModel, i_ref: float, i_max: float, n: int = 50) -> str:
+    """DC sweep of the straight-line diode model from i_max/n to i_max [A].
+
+    The diode's terminal voltage is ``v(a)``; offset chosen for ``i_ref`` [A] as in
+    the converter netlists.
+    """
+    deck = _Deck()
+    deck.add("* straight-line diode model, DC sweep")
+    deck.add(".options rshunt=1e9 reltol=1e-5")
+    deck.add(f".model didl D(IS={DIODE_IS:g} N={DIODE_N:g})")
+    deck.add("Itest 0 a DC 1")
+    deck.diode("dt", "a", "0", d, i_ref)
+    step = i_max / n
+    deck.add(f".dc Itest {step:.9g} {i_max:.9g} {step:.9g}")
+    deck.add(".end")
+    return "\n".join(deck.lines) + "\n"

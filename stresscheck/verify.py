@@ -1,0 +1,123 @@
+"""Cross-check of computed stresses against an ngspice simulation of the same circuit.
+
+For a corner, the engine's circuit (its solved R_DS(on), duty and tolerances) is
+simulated in steady state and the same quantities are measured over whole periods.
+Tolerances (relative):
+  voltages, averages and rms values  2 %
+  peaks and capacitor ripple         4 %
+The analytic model neglects second-order effects that the simulation keeps (curvature
+of the currents through resistive drops, the decay of the magnetizing current in
+freewheel, the exact diode curve); these tolerances bound them honestly.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+TOL_AVERAGE = 0.02
+TOL_PEAK = 0.04
+# quantity -> (tolerance, what the simulation measures it as)
+COMPARED = {
+    "v_peak": TOL_AVERAGE, "v_reverse_peak": TOL_AVERAGE, "i_avg": TOL_AVERAGE,
+    "i_rms": TOL_AVERAGE, "i_peak": TOL_PEAK, "i_ripple_rms": TOL_PEAK, "b_peak": TOL_PEAK,
+}
+CAPACITOR_ROLES = ("input-capacitor", "output-capacitor", "split-capacitor")
+
+
+@dataclass
+class Comparison:
+    ref: str
+    quantity: str
+    corner: str
+    computed: float
+    simulated: float
+    tolerance: float
+
+    @property
+    def rel(self) -> float:
+        scale = max(abs(self.simulated), 1e-12)
+        return (self.computed - self.simulated) / scale
+
+    @property
+    def ok(self) -> bool:
+        return abs(self.rel) <= self.tolerance
+
+
+def position_of(design, ref: str) -> tuple[tuple[str, int], int]:
+    """((role, position index), devices sharing that position's current) of a ref."""
+    for comp in design.components:
+        if ref not in comp.refs:
+            continue
+        role = comp.role
+        if role in ("input-capacitor", "output-capacitor"):
+            return (role, 0), len(comp.refs) * comp.parallel
+        refs = [r for r, _ in design.positions(role)]
+        return (role, refs.index(ref)), comp.parallel
+    raise KeyError(ref)
+
+
+def compare_at(evaluation, i: int, sim) -> list[Comparison]:
+    """Compare every simulated quantity at corner ``i`` with the engine's value there."""
+    design = evaluation.design
+    out = []
+    for s in evaluation.stresses:
+        tol = COMPARED.get(s.quantity)
+        if tol is None or not np.isfinite(s.values[i]):
+            continue
+        pos, devices = position_of(design, s.ref)
+        measured = sim.positions.get(pos, {}).get(s.quantity)
+        if measured is None:
+            continue
+        if s.quantity.startswith("i_"):
+            measured = measured / devices
+        out.append(Comparison(s.ref, s.quantity, evaluation.corners.ids[i],
+                              float(s.values[i]), float(measured), tol))
+    return out
+
+
+def governing_corners(evaluation, checks) -> list[int]:
+    index = {cid: k for k, cid in enumerate(evaluation.corners.ids)}
+    wanted = sorted({index[c.corner] for c in checks
+                     if c.corner is not None and c.quantity in COMPARED})
+    return wanted
+
+
+def verify_design(design_path, parts, policy_name, *, keep: Path | None = None) -> int:
+    from .checks import run_checks
+    from .design import load_design
+    from .engine import run
+    from .errors import SimulationError
+    from .policy import load_policy
+    from .spice.run import find_ngspice
+    from .spice.simulate import simulate
+
+    if find_ngspice() is None:
+        raise SimulationError("ngspice is not on PATH (install it, e.g. "
+                              "'apt-get install ngspice')")
+    design = load_design(design_path, parts)
+    evaluation = run(design)
+    checks = run_checks(evaluation, load_policy(policy_name))
+    corners = governing_corners(evaluation, checks)
+    print(f"{design.name}: simulating {len(corners)} governing corner(s) in ngspice")
+    failures = 0
+    for i in corners:
+        cid = evaluation.corners.ids[i]
+        print(f"\ncorner {evaluation.corners.describe(i)}")
+        target = keep / f"{cid}.cir" if keep else None
+        if keep:
+            keep.mkdir(parents=True, exist_ok=True)
+        sim = simulate(evaluation.circuit_at(i), keep_netlist=target)
+        print(f"  duty computed {evaluation.result.duty[i]:.4f}, simulated {sim.duty:.4f}")
+        print(f"  {'ref':6s} {'quantity':15s} {'computed':>12s} {'simulated':>12s} "
+              f"{'diff':>8s} {'tol':>5s}")
+        for cmp in compare_at(evaluation, i, sim):
+            flag = "ok" if cmp.ok else "OUTSIDE"
+            failures += not cmp.ok
+            print(f"  {cmp.ref:6s} {cmp.quantity:15s} {cmp.computed:12.5g} "
+                  f"{cmp.simulated:12.5g} {100 * cmp.rel:+7.2f}% {100 * cmp.tolerance:4.0f}%"
+                  f"  {flag}")
+    print(f"\n{failures} comparison(s) outside tolerance")
+    return 1 if failures else 0
