@@ -48,7 +48,7 @@ def values(ev, ref, quantity):
 def test_ideal_conversion_ratio(tmp_path, topology, rectifier):
     ev = lossless_eval(tmp_path, topology, rectifier)
     c = ev.corners
-    n = ev.stage.n_s / ev.stage.n_p
+    n = ev.stage.transformer.n_s / ev.stage.transformer.n_p
     v_src = c["input_voltage"] / (2 if topology == "half-bridge" else 1)
     expected_2d = c["output_voltage"] / (n * v_src)
     np.testing.assert_allclose(2 * ev.result.duty, expected_2d, rtol=REL)
@@ -58,7 +58,7 @@ def test_ideal_conversion_ratio(tmp_path, topology, rectifier):
 def test_ideal_voltage_stresses(tmp_path, topology, rectifier):
     ev = lossless_eval(tmp_path, topology, rectifier)
     vin = ev.corners["input_voltage"]
-    n = ev.stage.n_s / ev.stage.n_p
+    n = ev.stage.transformer.n_s / ev.stage.transformer.n_p
     v_switch = 2 * vin if topology == "push-pull" else vin
     v_src = vin / 2 if topology == "half-bridge" else vin
     v_rect = (2 if rectifier == "center-tap" else 1) * n * v_src
@@ -74,10 +74,10 @@ def test_ideal_currents(tmp_path, topology, rectifier):
     c = ev.corners
     io, vo, fs = c["output_current"], c["output_voltage"], c["switching_frequency"]
     d = ev.result.duty
-    n = ev.stage.n_s / ev.stage.n_p
+    n = ev.stage.transformer.n_s / ev.stage.transformer.n_p
     v_src = c["input_voltage"] / (2 if topology == "half-bridge" else 1)
     # ripple over the on-interval D/f_sw with n·V_src − V_o across L
-    ripple = (n * v_src - vo) * d / fs / ev.stage.l_out
+    ripple = (n * v_src - vo) * d / fs / ev.stage.inductors[0].l
     np.testing.assert_allclose(values(ev, "L1", "i_peak"), io + ripple / 2, rtol=REL)
     np.testing.assert_allclose(values(ev, "L1", "i_rms"),
                                np.sqrt(io ** 2 + ripple ** 2 / 12), rtol=REL)
@@ -102,5 +102,5 @@ def test_flux_from_volt_seconds(tmp_path, topology, rectifier):
     c = ev.corners
     v_src = c["input_voltage"] / (2 if topology == "half-bridge" else 1)
     t_on = ev.result.duty / c["switching_frequency"]
-    expected = v_src * t_on / (2 * ev.stage.n_p * 80e-6)
+    expected = v_src * t_on / (2 * ev.stage.transformer.n_p * 80e-6)
     np.testing.assert_allclose(values(ev, "T1", "b_peak"), expected, rtol=REL)

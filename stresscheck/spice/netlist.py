@@ -82,6 +82,7 @@ class Layout:
     r_load: float = 1.0  # [ohm]
     r_damp: float = 1.0  # [ohm] choke damping resistor, between ``vsrc`` and ``bus``
     l_choke: float = 1.0  # [H]
+    l_m: float = 1.0  # [H] as simulated
 
 
 def check_supported(c: Circuit) -> None:
@@ -124,11 +125,13 @@ def choke_values(c: Circuit, choke: str) -> tuple[float, float]:
     The choke resonates with the input (or total split) capacitance at
     ``CHOKE_RESONANCE[choke]·f_sw``; the damping resistor equals the characteristic
     impedance sqrt(L/C), which damps that resonance to a quality factor near one.
+    Half-bridge: C is the series value of the two split capacitors.
     """
     if choke not in CHOKES:
         raise ValueError(f"choke {choke!r} not known; valid: {', '.join(CHOKES)}")
-    if c.topology == "half-bridge":
-        cap = c.c_split[0].capacitance + c.c_split[1].capacitance
+    if c.topology == "half-bridge":  # the bus sees the split capacitors in series
+        c_t, c_b = c.c_split[0].capacitance, c.c_split[1].capacitance
+        cap = c_t * c_b / (c_t + c_b)
     else:
         cap = c.c_in.capacitance
     w_r = 2 * math.pi * CHOKE_RESONANCE[choke] * c.f_sw
@@ -254,7 +257,8 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
         d.res("p2", "p2u", "bus", c.r_primary)
         lay.windings["primary-2"] = ("vp2", c.r_primary)
     lay.windings["primary-1" if c.topology == "push-pull" else "primary"] = ("vp1", c.r_primary)
-    l_m = c.l_m if math.isfinite(c.l_m) and c.l_m > 0 else 1e3
+    l_m = c.l_m if math.isfinite(c.l_m) and c.l_m > 0 else 1e3  # "no Lm" -> negligible
+    lay.l_m = l_m
     d.add(f"Lm p1 {pu} {l_m:.12g} IC={ic['lm']:.12g}")
     ratio = c.n_s / c.n_p
 

@@ -86,6 +86,36 @@ class _Window:
     def rms(self, x: np.ndarray) -> float:
         return math.sqrt(max(self.mean(x * x), 0.0))
 
+    def mean_between(self, x: np.ndarray, t0: float, t1: float) -> float:
+        """Mean over [t0, t1] inside the window (cumulative integral interpolated)."""
+        cum = np.concatenate(([0.0], np.cumsum(self._dt * 0.5 * (x[1:] + x[:-1]))))
+        return float((np.interp(t1, self.t, cum) - np.interp(t0, self.t, cum)) / (t1 - t0))
+
+
+def _balance_correction(c: Circuit, w: _Window) -> dict[str, float]:
+    """State shift that removes the flux-bias mode at the end of a run [A, V].
+
+    The bias of the magnetizing current (and, in the half-bridge, the midpoint offset
+    with it) is a mode of hundreds of periods damped only by winding and switch
+    resistances. By the half-wave symmetry of the circuits simulated here its
+    steady state has zero mean magnetizing current and the midpoint at half the bus
+    voltage. The offsets at the end are the last period's means extrapolated half a
+    period with the period before.
+    """
+    ts = 1.0 / c.f_sw
+    t1 = w.t[-1]
+
+    def at_end(x: np.ndarray) -> float:
+        last = w.mean_between(x, t1 - ts, t1)
+        before = w.mean_between(x, t1 - 2 * ts, t1 - ts)
+        return 1.5 * last - 0.5 * before
+
+    shift = {"lm": -at_end(w["i(lm)"])}
+    if c.topology == "half-bridge":
+        e_v = at_end(w["v(mid)"] - 0.5 * w["v(bus)"])
+        shift.update(ctop=e_v, cbot=-e_v)
+    return shift
+
 
 def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float) -> dict:
     """Stresses and state over the window from ``t_a`` [s] to the end of the data.
@@ -118,8 +148,9 @@ def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float) -> 
     i_l = w["i(lout)"]
     pos[("inductor", 0)] = {"i_peak": float(np.max(np.abs(i_l))), "i_rms": w.rms(i_l)}
     for key, (sense, plus, minus, _, _) in lay.caps.items():
-        pos[key] = {"i_ripple_rms": w.rms(w[f"i({sense})"]),
-                    "v_peak": float(np.max(v(plus) - v(minus)))}
+        i = w[f"i({sense})"]
+        pos[key] = {"i_ripple_rms": w.rms(i), "v_peak": float(np.max(v(plus) - v(minus)))}
+        diag[f"{key[0]}-{key[1]}.i_mean"] = w.mean(i)
     i_m = w["i(lm)"]
     i_m_peak = float(np.max(np.abs(i_m)))
     xf = {"i_m_peak": i_m_peak}
@@ -136,6 +167,7 @@ def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float) -> 
     p_out = w.mean(v_out * v_out) / lay.r_load
     v_damp = c.v_in - v("bus")
     diag["p_damp"] = w.mean(v_damp * v_damp) / lay.r_damp
+    diag["choke_l"], diag["choke_r"] = lay.l_choke, lay.r_damp
     diag["i_l_mean"] = means["i_l"]
     diag["i_m_mean"] = means["i_m"]
     diag["v_out_ripple_pp"] = float(np.ptp(v_out))
@@ -150,15 +182,16 @@ def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float) -> 
         cap = {"output-capacitor": c.c_out, "input-capacitor": c.c_in}.get(key[0])
         cap = cap or c.c_split[key[1]]
         e_change += 0.5 * cap.capacitance * (vc[-1] ** 2 - vc[0] ** 2)
-    for name, ind in (("lout", c.l_out), ("lm", c.l_m), ("lch", lay.l_choke)):
+    for name, ind in (("lout", c.l_out), ("lm", lay.l_m), ("lch", lay.l_choke)):
         x = w[f"i({name})"]
         final[name] = float(x[-1])
         e_change += 0.5 * ind * (x[-1] ** 2 - x[0] ** 2)
     diag["p_stored"] = e_change / w.length
+    balance = _balance_correction(c, w)
     if c.topology == "half-bridge":
         diag["v_mid_mean"] = w.mean(v("mid"))
     return {"positions": pos, "means": means, "final": final, "diagnostics": diag,
-            "p_in": p_in, "p_out": p_out}
+            "p_in": p_in, "p_out": p_out, "balance": balance}
 
 
 def _duty_limit(c: Circuit) -> float:
@@ -223,7 +256,7 @@ def simulate(c: Circuit, *, keep_netlist: Path | None = None) -> SimResult:
     with tempfile.TemporaryDirectory(prefix="stresscheck-spice-") as tmp:
         for n_run in range(1, MAX_RUNS + 1):
             m, text = _run(c, duty, ic, choke, Path(tmp), N_RUN_PERIODS)
-            ic = dict(m["final"])
+            ic = {k: x + m["balance"].get(k, 0.0) for k, x in m["final"].items()}
             v_mean, i_mean = m["means"]["v_out"], m["means"]["i_l"]
             if abs(v_mean / c.v_out - 1) < V_TOL:
                 if choke == "short":
@@ -247,8 +280,7 @@ def simulate(c: Circuit, *, keep_netlist: Path | None = None) -> SimResult:
             raise SimulationError(f"no accepted steady state after {MAX_RUNS} runs "
                                   f"(duty {duty:.6f}, mean v_out {v_mean:.6g} V)")
     diag = dict(m["diagnostics"])
-    diag.update(runs=n_run, wall_time=time.perf_counter() - t0,
-                steady_dv=dv, steady_di=di, choke_l=float(_choke_l(c)))
+    diag.update(runs=n_run, wall_time=time.perf_counter() - t0, steady_dv=dv, steady_di=di)
     res = SimResult(duty=duty, v_out_mean=v_mean, p_in=m["p_in"], p_out=m["p_out"],
                     positions=m["positions"], diagnostics=diag)
     if keep_netlist is not None:
@@ -259,11 +291,6 @@ def simulate(c: Circuit, *, keep_netlist: Path | None = None) -> SimResult:
     return res
 
 
-def _choke_l(c: Circuit) -> float:
-    from .netlist import choke_values
-    return choke_values(c, "real")[0]
-
-
 def result_json(c: Circuit, res: SimResult) -> dict:
     """JSON-ready record of a simulation: the circuit and everything measured."""
     return {"schema": "stresscheck.spice-result/1", "circuit": asdict(c),
@@ -271,7 +298,8 @@ def result_json(c: Circuit, res: SimResult) -> dict:
             "p_out": res.p_out,
             "positions": {f"{role}:{k}": q for (role, k), q in res.positions.items()},
             "measured_periods": N_MEASURE_PERIODS,
-            "diagnostics": res.diagnostics}
+            # wall time left out: the committed references stay reproducible
+            "diagnostics": {k: x for k, x in res.diagnostics.items() if k != "wall_time"}}
 
 
 def diode_dc_sweep(d: DiodeModel, i_ref: float, i_max: float, n: int = 50,

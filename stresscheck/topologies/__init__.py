@@ -95,46 +95,80 @@ def layout_for(design) -> Layout:
 
 
 @dataclass
-class Stage:
-    """Per-corner electrical parameters of one design, each (N,) [SI units].
+class Device:
+    """A semiconductor position (its paralleled devices as one equivalent), (N,) arrays."""
 
-    Positions hold the equivalent of their paralleled devices. Lists follow the order of
-    the refs in the design file.
+    kind: str  # "mosfet" | "diode"
+    v_f0: np.ndarray  # [V] diode drop at zero current (MOSFET: its body diode)
+    r_d: np.ndarray  # [ohm] diode slope resistance (MOSFET: its body diode)
+    r_on: np.ndarray | None = None  # [ohm] MOSFET channel at the solved T_j
+
+
+@dataclass
+class Magnetics:
+    """The transformer (or coupled inductor) of an isolated stage."""
+
+    n_p: float
+    n_s: float
+    l_m: np.ndarray  # [H] (N,) referred to n_p turns
+    r_p: float = 0.0  # [ohm] per primary winding (push-pull: per half)
+    r_s: float = 0.0  # [ohm] per secondary winding (center-tap: per half)
+    core_area: float | None = None  # [m^2]
+    n_r: float | None = None  # reset winding turns
+    r_r: float = 0.0  # [ohm] reset winding
+    l_leak: float = 0.0  # [H] leakage, referred to the primary
+
+
+@dataclass
+class Inductor:
+    l: np.ndarray  # [H] (N,)
+    dcr: float = 0.0  # [ohm]
+
+
+@dataclass
+class CapacitorBank:
+    c: np.ndarray  # [F] (N,) whole bank of the position
+    esr: float = 0.0  # [ohm] whole bank of the position
+
+
+@dataclass
+class Stage:
+    """Per-corner electrical parameters of one design [SI units].
+
+    Positions hold the equivalent of their paralleled devices; position indexes follow
+    the order of the refs in the design file (see ``Layout``).
     """
 
     topology: str
     rectifier: str | None
+    modulation: str
     vin: np.ndarray
     vo: np.ndarray
     io: np.ndarray
     fs: np.ndarray
     duty_limit: np.ndarray
-    switch_r: list[np.ndarray]
-    rect_vf0: list[np.ndarray]
-    rect_rd: list[np.ndarray]
-    n_p: float = 1.0
-    n_s: float = 1.0
-    l_m: np.ndarray | None = None
-    r_p: float = 0.0
-    r_s: float = 0.0
-    core_area: float | None = None
-    l_out: np.ndarray | None = None
-    dcr: float = 0.0
-    c_out: np.ndarray | None = None
-    esr_out: float = 0.0
-    c_in: np.ndarray | None = None
-    esr_in: float = 0.0
-    c_split: list[np.ndarray] = field(default_factory=list)
-    esr_split: list[float] = field(default_factory=list)
+    dead_time: float
+    devices: dict[tuple[str, int], Device]
+    transformer: Magnetics | None
+    inductors: list[Inductor]
+    capacitors: dict[tuple[str, int], CapacitorBank]
+
+    def count(self, role: str) -> int:
+        return sum(1 for r, _ in self.devices if r == role)
+
+    def group(self, role: str) -> list[Device]:
+        return [self.devices[(role, k)] for k in range(self.count(role))]
 
 
 @dataclass
 class StageResult:
-    """Waveforms and stresses of one evaluation, position totals, each (N,) or PWL."""
+    """Waveforms and stresses of one evaluation, position totals, (N,) arrays or PWL."""
 
     duty: np.ndarray
     grid: Grid
-    currents: dict[tuple[str, int], PWL]  # device currents (capacitors: their AC current)
+    # device currents: diodes forward current; MOSFETs channel current (drain to source);
+    # capacitors their (AC) current; inductors and windings their current
+    currents: dict[tuple[str, int], PWL]
     v_block: dict[tuple[str, int], np.ndarray]  # peak blocking / terminal voltage [V]
     input_current: np.ndarray  # [A] DC current drawn from the source
     winding_loss: np.ndarray  # [W] transformer copper loss
@@ -142,6 +176,8 @@ class StageResult:
     i_m_peak: np.ndarray  # [A] magnetizing current peak, referred to the primary
     i_l_start: np.ndarray  # [A] inductor current at the start of the period
     i_m_start: np.ndarray  # [A] magnetizing current at the start of the period
+    # MOSFET body-diode forward current (source to drain, >= 0) where it conducts
+    body: dict[tuple[str, int], PWL] = field(default_factory=dict)
     # corners where the model's assumptions fail: (mask, reason)
     invalid: list[tuple[np.ndarray, str]] = field(default_factory=list)
     regime: np.ndarray | None = None  # e.g. "CCM" per corner

@@ -47,35 +47,39 @@ BUS_PASSES = 4
 
 def evaluate(st: Stage) -> StageResult:
     top, rect = st.topology, st.rectifier
-    n = st.n_s / st.n_p
+    xf, ind = st.transformer, st.inductors[0]
+    n = xf.n_s / xf.n_p
     ts = 1.0 / st.fs
     io = st.io
+    switch_r = [d.r_on for d in st.group("switch")]
     # on-path switch resistance, averaged over the two half-cycles
     if top == "full-bridge":
-        r_sw = ((st.switch_r[0] + st.switch_r[3]) + (st.switch_r[2] + st.switch_r[1])) / 2
+        r_sw = ((switch_r[0] + switch_r[3]) + (switch_r[2] + switch_r[1])) / 2
     else:
-        r_sw = (st.switch_r[0] + st.switch_r[1]) / 2
-    vf0 = np.mean(st.rect_vf0, axis=0)
-    rd = np.mean(st.rect_rd, axis=0)
+        r_sw = (switch_r[0] + switch_r[1]) / 2
+    rects = st.group("rectifier")
+    vf0 = np.mean([d.v_f0 for d in rects], axis=0)
+    rd = np.mean([d.r_d for d in rects], axis=0)
+    r_s = xf.r_s
     if rect == "center-tap":
         v_rect_on = vf0 + rd * io
-        v_fw = vf0 + (st.r_s + rd) * io / 2
+        v_fw = vf0 + (r_s + rd) * io / 2
     else:
         v_rect_on = 2 * (vf0 + rd * io)
         v_fw = 2 * vf0 + rd * io
-    r_prim = r_sw + st.r_p
+    r_prim = r_sw + xf.r_p
 
     v_src = st.vin / 2 if top == "half-bridge" else st.vin.copy()
     for _ in range(BUS_PASSES):
         emf_on = v_src - r_prim * n * io  # mean primary emf during the on-interval
-        v_on = n * emf_on - st.r_s * io - v_rect_on
-        duty = (st.vo + st.dcr * io + v_fw) / (2 * (v_on + v_fw))
+        v_on = n * emf_on - r_s * io - v_rect_on
+        duty = (st.vo + ind.dcr * io + v_fw) / (2 * (v_on + v_fw))
         d = np.clip(duty, 1e-6, 0.5)
         grid = Grid(np.stack([d * ts, (0.5 - d) * ts, d * ts, (0.5 - d) * ts], axis=1))
-        d_i = (v_on - st.dcr * io - st.vo) * d * ts / st.l_out
+        d_i = (v_on - ind.dcr * io - st.vo) * d * ts / ind.l
         i_min, i_max = io - d_i / 2, io + d_i / 2
         lam = emf_on * d * ts
-        i_m = lam / (2 * st.l_m)
+        i_m = lam / (2 * xf.l_m)
 
         z = np.zeros_like(io)
         i_l = grid.wave(np.stack([i_min, i_max, i_min, i_max], 1),
@@ -109,8 +113,9 @@ def evaluate(st: Stage) -> StageResult:
             i_dc = (i_a.mean() + i_b.mean()) / 2
             i_c1 = i_a * -1 + i_dc
             i_c2 = i_b * -1 + i_dc
-            v_c1 = capacitor_voltage_samples(i_c1, st.c_split[0], st.esr_split[0], st.vin / 2)
-            v_c2 = capacitor_voltage_samples(i_c2, st.c_split[1], st.esr_split[1], st.vin / 2)
+            c1, c2 = st.capacitors[("split-capacitor", 0)], st.capacitors[("split-capacitor", 1)]
+            v_c1 = capacitor_voltage_samples(i_c1, c1.c, c1.esr, st.vin / 2)
+            v_c2 = capacitor_voltage_samples(i_c2, c2.c, c2.esr, st.vin / 2)
             bus = v_c1 + v_c2
             src1, src2 = v_c1, v_c2
             currents[("split-capacitor", 0)] = i_c1
@@ -121,7 +126,8 @@ def evaluate(st: Stage) -> StageResult:
             i_bus = i_a + i_b
             i_dc = i_bus.mean()
             i_cin = i_dc - i_bus
-            bus = capacitor_voltage_samples(i_cin, st.c_in, st.esr_in, st.vin)
+            cin = st.capacitors[("input-capacitor", 0)]
+            bus = capacitor_voltage_samples(i_cin, cin.c, cin.esr, st.vin)
             src1 = src2 = bus
             currents[("input-capacitor", 0)] = i_cin
             v_block[("input-capacitor", 0)] = max_over(bus)
@@ -136,14 +142,14 @@ def evaluate(st: Stage) -> StageResult:
     ia_s, ib_s, il_s = i_a.samples(), i_b.samples(), i_l.samples()
     if top == "push-pull":
         # off switch: bus + emf of the conducting half (coupled winding of equal turns)
-        v_q0 = max_over(2 * src2 - (st.switch_r[1][:, None, None] + st.r_p) * ib_s, MASK_ON2)
-        v_q1 = max_over(2 * src1 - (st.switch_r[0][:, None, None] + st.r_p) * ia_s, MASK_ON1)
+        v_q0 = max_over(2 * src2 - (switch_r[1][:, None, None] + xf.r_p) * ib_s, MASK_ON2)
+        v_q1 = max_over(2 * src1 - (switch_r[0][:, None, None] + xf.r_p) * ia_s, MASK_ON1)
         bus_max = max_over(bus)
         v_block[("switch", 0)] = np.maximum(v_q0, bus_max)
         v_block[("switch", 1)] = np.maximum(v_q1, bus_max)
     else:
         bus_max = max_over(bus)
-        for k in range(len(st.switch_r)):
+        for k in range(len(switch_r)):
             v_block[("switch", k)] = bus_max
     # primary emf during each on-interval, sampled
     emf1 = src1 - r_prim[:, None, None] * ia_s
@@ -151,33 +157,34 @@ def evaluate(st: Stage) -> StageResult:
     vd = vf0[:, None, None] + rd[:, None, None] * il_s
     if rect == "center-tap":
         # blocking diode sees both secondary halves less the conducting diode's drop
-        vr_first = max_over(2 * n * emf2 - st.r_s * il_s - vd, MASK_ON2)
-        vr_second = max_over(2 * n * emf1 - st.r_s * il_s - vd, MASK_ON1)
+        vr_first = max_over(2 * n * emf2 - r_s * il_s - vd, MASK_ON2)
+        vr_second = max_over(2 * n * emf1 - r_s * il_s - vd, MASK_ON1)
         v_block[("rectifier", 0)] = vr_first
         v_block[("rectifier", 1)] = vr_second
     else:
-        vr_first = max_over(n * emf2 - st.r_s * il_s - vd, MASK_ON2)
-        vr_second = max_over(n * emf1 - st.r_s * il_s - vd, MASK_ON1)
+        vr_first = max_over(n * emf2 - r_s * il_s - vd, MASK_ON2)
+        vr_second = max_over(n * emf1 - r_s * il_s - vd, MASK_ON1)
         for k in (0, 3):
             v_block[("rectifier", k)] = vr_first
         for k in (1, 2):
             v_block[("rectifier", k)] = vr_second
-    v_out = capacitor_voltage_samples(i_l - io, st.c_out, st.esr_out, st.vo)
+    cout = st.capacitors[("output-capacitor", 0)]
+    v_out = capacitor_voltage_samples(i_l - io, cout.c, cout.esr, st.vo)
     v_block[("output-capacitor", 0)] = max_over(v_out)
 
     # transformer ------------------------------------------------------------------------
     if top == "push-pull":
-        p_wind = st.r_p * (i_a.rms() ** 2 + i_b.rms() ** 2)
+        p_wind = xf.r_p * (i_a.rms() ** 2 + i_b.rms() ** 2)
     else:
         i_prim = i_a - i_b
-        p_wind = st.r_p * i_prim.rms() ** 2
+        p_wind = xf.r_p * i_prim.rms() ** 2
     if rect == "center-tap":
-        p_wind = p_wind + st.r_s * (first.rms() ** 2 + second.rms() ** 2)
+        p_wind = p_wind + r_s * (first.rms() ** 2 + second.rms() ** 2)
     else:
         i_sec = grid.wave(np.stack([i_min, -i_m / n, -i_min, i_m / n], 1),
                           np.stack([i_max, -i_m / n, -i_max, i_m / n], 1))
-        p_wind = p_wind + st.r_s * i_sec.rms() ** 2
-    b_peak = lam / (2 * st.n_p * st.core_area) if st.core_area else None
+        p_wind = p_wind + r_s * i_sec.rms() ** 2
+    b_peak = lam / (2 * xf.n_p * xf.core_area) if xf.core_area else None
 
     invalid = [
         (i_min <= 0, "the output inductor current falls to zero (discontinuous "
