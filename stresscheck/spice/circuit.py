@@ -75,3 +75,15 @@ class Circuit:
     # Analytic warm start for the simulation, at the start of the first on-interval:
     i_l_start: float = 0.0  # [A] output inductor current
     i_m_start: float = 0.0  # [A] magnetizing current (referred to n_p)
+    # Beyond the bridge family (all optional). Positions of the roles 'freewheel' and
+    # 'reset' in design order; rectifier and freewheel positions may hold a SwitchModel
+    # (synchronous rectifier).
+    modulation: str = "pwm"  # full-bridge: pwm | phase-shift
+    freewheels: list = field(default_factory=list)
+    resets: list = field(default_factory=list)
+    n_r: float | None = None  # reset winding turns (forward)
+    r_reset: float = 0.0  # [ohm] reset winding
+    l_leak: float = 0.0  # [H] leakage inductance referred to the primary
+    l_out_2: float | None = None  # [H] second output inductor (current doubler)
+    dcr_out_2: float = 0.0  # [ohm]
+    regime: str = "CCM"  # the analytic model's conduction regime at this corner

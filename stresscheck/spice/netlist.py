@@ -2,7 +2,7 @@
 
 Topologies: ``full-bridge`` (PWM), ``half-bridge``, ``push-pull``; rectifiers
 ``center-tap`` and ``full-bridge``. The models follow the project's ngspice notes
-(/work/shared/reference/ngspice-notes.md): ``S`` switches with an antiparallel body diode,
+(shared reference, "ngspice-notes"): ``S`` switches with an antiparallel body diode,
 an ideal transformer built from controlled sources plus one magnetizing inductance,
 straight-line diodes (offset source + near-ideal diode + slope resistor), L with DCR,
 C with ESR and a 0 V sense source, and a DC input behind a damped choke.
@@ -20,7 +20,7 @@ Names shared with the measurement code (all lower case, as ngspice reports them)
                         towards the output node ``out``
 ``lm``                  magnetizing inductance, current from the reference winding's
                         dot to its undotted end (ramps up in the first on-interval)
-``lch``                 input choke (source ``vin`` -> node ``bus``)
+``lch``                 input choke (source node ``vsrc`` -> node ``bus``)
 ``vco`` / ``vci``       output / input capacitor current sense (into the capacitor)
 ``vct`` / ``vcb``       half-bridge top / bottom split-capacitor current sense
 ``vp1``, ``vp2``        primary winding (half) current sense, into the dot
@@ -86,11 +86,21 @@ class Layout:
 
 
 def check_supported(c: Circuit) -> None:
-    """Raise ``ValueError`` unless ``c`` is a bridge-family circuit this module builds."""
+    """Check that ``c`` is a circuit this module builds.
+
+    Raises
+    ------
+    NotImplementedError
+        Topology or rectifier outside :data:`TOPOLOGIES` / :data:`RECTIFIERS`.
+    ValueError
+        Position counts or capacitors that do not fit the topology.
+    """
     if c.topology not in TOPOLOGIES:
-        raise ValueError(f"topology {c.topology!r} not supported; valid: {', '.join(TOPOLOGIES)}")
+        raise NotImplementedError(f"ngspice netlist for topology {c.topology!r} not "
+                                  f"available; valid: {', '.join(TOPOLOGIES)}")
     if c.rectifier not in RECTIFIERS:
-        raise ValueError(f"rectifier {c.rectifier!r} not supported; valid: {', '.join(RECTIFIERS)}")
+        raise NotImplementedError(f"ngspice netlist for rectifier {c.rectifier!r} not "
+                                  f"available; valid: {', '.join(RECTIFIERS)}")
     n_sw = {"full-bridge": 4, "half-bridge": 2, "push-pull": 2}[c.topology]
     n_rect = {"center-tap": 2, "full-bridge": 4}[c.rectifier]
     if len(c.switches) != n_sw or len(c.rectifiers) != n_rect:
@@ -108,8 +118,8 @@ def diode_offset(d: DiodeModel, i_ref: float) -> float:
     """Offset source of the straight-line diode model [V].
 
     The near-ideal diode adds n·V_T·ln(1 + I/I_S) (about 36 mV at 1 A); the offset is
-    chosen so the drop is exactly ``v_f0 + r_d·i_ref`` at ``i_ref`` [A] and within about
-    ±1.3 mV per decade of current around it.
+    chosen so the drop is exactly ``v_f0 + r_d·i_ref`` at ``i_ref`` [A]; it departs by
+    n·V_T·ln(10), about 3 mV, per decade of current away from it.
     """
     return d.v_f0 - DIODE_N * V_THERMAL * math.log1p(max(i_ref, 1e-6) / DIODE_IS)
 
@@ -122,7 +132,7 @@ def switching_period(c: Circuit) -> float:
 def choke_values(c: Circuit, choke: str) -> tuple[float, float]:
     """Input choke inductance [H] and parallel damping resistance [ohm].
 
-    The choke resonates with the input (or total split) capacitance at
+    The choke resonates with the input capacitance at
     ``CHOKE_RESONANCE[choke]·f_sw``; the damping resistor equals the characteristic
     impedance sqrt(L/C), which damps that resonance to a quality factor near one.
     Half-bridge: C is the series value of the two split capacitors.
@@ -195,7 +205,7 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
     d.add(f"* stresscheck reference: {c.topology} / {c.rectifier} rectifier, "
           f"v_in={c.v_in:g} V, v_out={c.v_out:g} V, i_out={c.i_out:g} A, "
           f"f_sw={c.f_sw:g} Hz, duty={duty:.9f}, choke={choke}")
-    d.add(f".options rshunt=1e9 reltol=1e-5")
+    d.add(".options rshunt=1e9 reltol=1e-5")
     d.add(f".model didl D(IS={DIODE_IS:g} N={DIODE_N:g})")
     for k, sw in enumerate(c.switches):
         d.add(f".model sw{k} SW(RON={sw.r_on:.9g} ROFF={R_OFF:g} VT={SW_VT:g} VH={SW_VH:g})")
@@ -216,21 +226,16 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
         lay.caps[("input-capacitor", 0)] = d.cap("ci", "bus", "0", c.c_in.capacitance,
                                                   c.c_in.esr, ic["cin"])
 
-    # Switches with body diodes, a sense source in each drain lead.
-    on = duty * ts
+    # Gate 1 drives the first half-cycle from t = 0, gate 2 the second from Ts/2:
+    # full-bridge pairs (0, 3) and (2, 1), half-bridge high and low, push-pull 0 and 1.
+    _gate(d, "1", 0.0, duty * ts, ts)
+    _gate(d, "2", ts / 2, duty * ts, ts)
+    legs = {"full-bridge": [("bus", "pa", "1"), ("pa", "0", "2"), ("bus", "pb", "2"),
+                            ("pb", "0", "1")],
+            "half-bridge": [("bus", "sw", "1"), ("sw", "0", "2")],
+            "push-pull": [("d1", "0", "1"), ("d2", "0", "2")]}[c.topology]
+    # Switches with body diodes (anode at the source), a sense source in each drain lead.
     i_body = c.i_out * c.n_s / c.n_p
-    if c.topology == "full-bridge":
-        legs = [("bus", "pa", "1"), ("pa", "0", "2"), ("bus", "pb", "2"), ("pb", "0", "1")]
-        _gate(d, "1", 0.0, on, ts)
-        _gate(d, "2", ts / 2, on, ts)
-    elif c.topology == "half-bridge":
-        legs = [("bus", "sw", "1"), ("sw", "0", "2")]
-        _gate(d, "1", 0.0, on, ts)
-        _gate(d, "2", ts / 2, on, ts)
-    else:
-        legs = [("d1", "0", "1"), ("d2", "0", "2")]
-        _gate(d, "1", 0.0, on, ts)
-        _gate(d, "2", ts / 2, on, ts)
     for k, ((drain, source, gate), sw) in enumerate(zip(legs, c.switches)):
         d.add(f"vq{k} {drain} q{k}d 0")
         d.add(f"S{k} q{k}d {source} g{gate} 0 sw{k} OFF")

@@ -92,33 +92,54 @@ class _Window:
         return float((np.interp(t1, self.t, cum) - np.interp(t0, self.t, cum)) / (t1 - t0))
 
 
-def _balance_correction(c: Circuit, w: _Window) -> dict[str, float]:
+def _balance_correction(c: Circuit, w: _Window, duty: float, l_m: float) -> dict[str, float]:
     """State shift that removes the flux-bias mode at the end of a run [A, V].
 
-    The bias of the magnetizing current (and, in the half-bridge, the midpoint offset
-    with it) is a mode of hundreds of periods damped only by winding and switch
-    resistances. By the half-wave symmetry of the circuits simulated here its
-    steady state has zero mean magnetizing current and the midpoint at half the bus
-    voltage. The offsets at the end are the last period's means extrapolated half a
+    The bias of the magnetizing current (half-bridge: with the midpoint offset) is a
+    mode of hundreds of periods, damped only by winding and switch resistances; a
+    run of 100 periods hardly sees it decay. Its steady state:
+
+    - half-bridge: the split capacitors block DC, so the mean primary current is zero,
+      and the midpoint sits where the primary's volt-seconds balance. An offset dv of
+      the midpoint changes the magnetizing current by -2·dv·D·Ts/L_m per period, so
+      dv follows from the drift of the period means.
+    - full-bridge, push-pull: zero mean magnetizing current, by the half-wave symmetry
+      of the circuit (identical positions); an asymmetric circuit would settle at a
+      bias the engine does not model either.
+
+    Offsets at the end of the run are the last period's means extrapolated half a
     period with the period before.
     """
     ts = 1.0 / c.f_sw
     t1 = w.t[-1]
 
-    def at_end(x: np.ndarray) -> float:
+    def ends(x: np.ndarray) -> tuple[float, float]:
         last = w.mean_between(x, t1 - ts, t1)
         before = w.mean_between(x, t1 - 2 * ts, t1 - ts)
-        return 1.5 * last - 0.5 * before
+        return 1.5 * last - 0.5 * before, last - before
 
-    shift = {"lm": -at_end(w["i(lm)"])}
-    if c.topology == "half-bridge":
-        e_v = at_end(w["v(mid)"] - 0.5 * w["v(bus)"])
-        shift.update(ctop=e_v, cbot=-e_v)
-    return shift
+    if c.topology != "half-bridge":
+        return {"lm": -ends(w["i(lm)"])[0]}
+    i_bias = ends(w["i(vp1)"])[0]
+    dv = -l_m * ends(w["i(lm)"])[1] / (2 * duty * ts)
+    return {"lm": -i_bias, "ctop": dv, "cbot": -dv}
 
 
-def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float) -> dict:
+def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float,
+            duty: float) -> dict:
     """Stresses and state over the window from ``t_a`` [s] to the end of the data.
+
+    Parameters
+    ----------
+    c : Circuit
+    lay : Layout
+        Names of the netlist that produced ``vec``.
+    vec : dict of str to numpy.ndarray
+        Vectors from :func:`stresscheck.spice.run.run_netlist` [s, V, A].
+    t_a : float
+        Start of the window [s]; it ends with the data.
+    duty : float
+        Duty ratio of the run [1], for the flux-bias correction.
 
     Returns
     -------
@@ -173,21 +194,22 @@ def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float) -> 
     diag["v_out_ripple_pp"] = float(np.ptp(v_out))
 
     # State at both ends of the window: warm start and change of stored energy.
-    caps = {("output-capacitor", 0): "cout", ("input-capacitor", 0): "cin",
-            ("split-capacitor", 0): "ctop", ("split-capacitor", 1): "cbot"}
+    caps = {("output-capacitor", 0): ("cout", c.c_out), ("input-capacitor", 0): ("cin", c.c_in)}
+    if c.topology == "half-bridge":
+        caps.update({("split-capacitor", 0): ("ctop", c.c_split[0]),
+                     ("split-capacitor", 1): ("cbot", c.c_split[1])})
     final, e_change = {}, 0.0
     for key, (_, _, _, cp, cm) in lay.caps.items():
         vc = v(cp) - v(cm)
-        final[caps[key]] = float(vc[-1])
-        cap = {"output-capacitor": c.c_out, "input-capacitor": c.c_in}.get(key[0])
-        cap = cap or c.c_split[key[1]]
+        ic_key, cap = caps[key]
+        final[ic_key] = float(vc[-1])
         e_change += 0.5 * cap.capacitance * (vc[-1] ** 2 - vc[0] ** 2)
     for name, ind in (("lout", c.l_out), ("lm", lay.l_m), ("lch", lay.l_choke)):
         x = w[f"i({name})"]
         final[name] = float(x[-1])
         e_change += 0.5 * ind * (x[-1] ** 2 - x[0] ** 2)
     diag["p_stored"] = e_change / w.length
-    balance = _balance_correction(c, w)
+    balance = _balance_correction(c, w, duty, lay.l_m)
     if c.topology == "half-bridge":
         diag["v_mid_mean"] = w.mean(v("mid"))
     return {"positions": pos, "means": means, "final": final, "diagnostics": diag,
@@ -220,7 +242,7 @@ def _run(c: Circuit, duty: float, ic: dict, choke: str, workdir: Path,
     t_stop, t_meas = periods * ts, N_MEASURE_PERIODS * ts
     text, lay = build(c, duty, t_stop, t_meas, ic, choke)
     vec = run_netlist(text, workdir)
-    return measure(c, lay, vec, t_stop - t_meas), text
+    return measure(c, lay, vec, t_stop - t_meas, duty), text
 
 
 def simulate(c: Circuit, *, keep_netlist: Path | None = None) -> SimResult:
@@ -243,8 +265,10 @@ def simulate(c: Circuit, *, keep_netlist: Path | None = None) -> SimResult:
     SimulationError
         ngspice fails, the duty needed exceeds the limit, or no steady state is
         accepted within :data:`MAX_RUNS` runs.
+    NotImplementedError
+        A topology or rectifier outside the bridge family.
     ValueError
-        The circuit is not one this module builds.
+        The circuit lacks positions its topology needs.
     """
     check_supported(c)
     t0 = time.perf_counter()

@@ -7,6 +7,7 @@ from those. Adding a topology = a layout here plus a model module.
 
 from __future__ import annotations
 
+import importlib
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -20,6 +21,7 @@ from ..waveforms import PWL, Grid
 class RoleSpec:
     count: int | None  # exact number of refs; None = a bank of one or more refs
     required: bool = True
+    kinds: tuple[str, ...] | None = None  # part kinds modelled here (None: schema.ROLE_KINDS)
 
 
 @dataclass
@@ -50,10 +52,10 @@ class Layout:
                 raise InputError(path, f"{comps[0].key}.refs", f"a {self.describe()} has "
                                  f"{spec.count} '{role}' position(s); {len(refs)} given")
             for comp in comps:
-                if role in ("rectifier", "freewheel") and comp.part.kind == "mosfet":
-                    raise InputError(path, f"{comp.key}.part", "synchronous rectifiers "
-                                     "(a MOSFET in a rectifier position) are not modelled "
-                                     "yet for this topology; use a diode part")
+                if spec.kinds is not None and comp.part.kind not in spec.kinds:
+                    raise InputError(path, f"{comp.key}.part", f"a {comp.part.kind} in the "
+                                     f"'{role}' position is not modelled yet for a "
+                                     f"{self.describe()}; use a " + " or a ".join(spec.kinds))
 
     def describe(self) -> str:
         if self.rectifier:
@@ -61,37 +63,38 @@ class Layout:
         return f"{self.topology} converter"
 
 
+# topology -> model module (in this package). A topology whose module is missing is
+# refused with a clear message.
+MODEL_MODULES = {
+    "full-bridge": "bridge", "half-bridge": "bridge", "push-pull": "bridge",
+    "forward": "forward", "two-switch-forward": "forward", "flyback": "flyback",
+    "buck": "buck", "boost": "boost",
+}
+
+
+def model_for(topology: str):
+    """The model module of a topology, or None when it is not modelled yet."""
+    name = MODEL_MODULES[topology]
+    try:
+        return importlib.import_module(f"{__name__}.{name}")
+    except ModuleNotFoundError as exc:
+        if exc.name == f"{__name__}.{name}":
+            return None
+        raise
+
+
+def modelled_topologies() -> list[str]:
+    return [t for t in schema.TOPOLOGIES if model_for(t) is not None]
+
+
 def layout_for(design) -> Layout:
     """The roles a design's topology needs; InputError for combinations not modelled."""
-    path, top, rect = design.path, design.topology, design.rectifier
-    if top in schema.BRIDGE_TOPOLOGIES:
-        if rect is None:
-            raise InputError(path, "converter.rectifier", "a bridge-family converter needs "
-                             "a rectifier: " + ", ".join(schema.RECTIFIERS))
-        if rect == "current-doubler":
-            raise InputError(path, "converter.rectifier", "the current-doubler rectifier "
-                             "is not modelled yet; use center-tap or full-bridge")
-        if design.modulation != "pwm":
-            if top != "full-bridge":
-                raise InputError(path, "converter.modulation", "phase-shift modulation "
-                                 "applies to the full-bridge only")
-            raise InputError(path, "converter.modulation", "phase-shift modulation is not "
-                             "modelled yet; use pwm")
-        roles = {
-            "switch": RoleSpec(4 if top == "full-bridge" else 2),
-            "rectifier": RoleSpec(2 if rect == "center-tap" else 4),
-            "transformer": RoleSpec(1),
-            "inductor": RoleSpec(1),
-            "output-capacitor": RoleSpec(None),
-        }
-        if top == "half-bridge":
-            roles["split-capacitor"] = RoleSpec(2)
-        else:
-            roles["input-capacitor"] = RoleSpec(None)
-        return Layout(top, rect, roles)
-    raise InputError(path, "converter.topology", f"topology '{top}' is in the contract but "
-                     "not modelled yet in this version; modelled: "
-                     + ", ".join(schema.BRIDGE_TOPOLOGIES))
+    model = model_for(design.topology)
+    if model is None:
+        raise InputError(design.path, "converter.topology", f"topology "
+                         f"'{design.topology}' is in the contract but not modelled yet in "
+                         "this version; modelled: " + ", ".join(modelled_topologies()))
+    return model.layout(design)
 
 
 @dataclass
@@ -184,25 +187,21 @@ class StageResult:
 
 
 def evaluate(stage: Stage) -> StageResult:
-    from . import bridge
-    if stage.topology in schema.BRIDGE_TOPOLOGIES:
-        return bridge.evaluate(stage)
-    raise NotImplementedError(stage.topology)
+    return model_for(stage.topology).evaluate(stage)
 
 
 def duty_limit_reason(design) -> str:
-    if design.topology in schema.BRIDGE_TOPOLOGIES:
-        text = "each switch conducts at most half a period"
-        if design.dead_time:
-            text += " less the dead time"
-        if design.max_duty is not None:
-            text += f", and the controller's max_duty of {design.max_duty:.3g}"
-        return text
-    return "the topology's duty limit"
+    """Words for what limits the duty ratio of ``design`` (for error messages)."""
+    text = model_for(design.topology).duty_limit_reason(design)
+    if design.max_duty is not None:
+        text += f"; the controller's max_duty is {design.max_duty:.3g}"
+    return text
 
 
 def topology_duty_limit(design, fs: np.ndarray) -> np.ndarray:
-    limit = 0.5 - design.dead_time * fs
+    """Largest duty ratio per switch at each corner [1]: the topology's and the
+    controller's (``max_duty``), whichever is lower."""
+    limit = model_for(design.topology).duty_limit(design, fs)
     if design.max_duty is not None:
         limit = np.minimum(limit, design.max_duty)
     return limit

@@ -33,8 +33,10 @@ from __future__ import annotations
 
 import numpy as np
 
+from .. import schema
+from ..errors import InputError
 from ..waveforms import (Grid, capacitor_voltage_samples, max_over, mean_over_samples)
-from . import Stage, StageResult
+from . import Layout, RoleSpec, Stage, StageResult
 
 ON1, FW1, ON2, FW2 = 0, 1, 2, 3
 MASK_ON1 = np.array([True, False, False, False])
@@ -43,6 +45,45 @@ MASK_ON2 = np.array([False, False, True, False])
 # Passes of the fixed point between duty and bus ripple (the bus ripple lowers the mean
 # primary voltage during the on-interval by a fraction of a percent).
 BUS_PASSES = 4
+
+
+def layout(design) -> Layout:
+    """Roles of a bridge-family design."""
+    path, top, rect = design.path, design.topology, design.rectifier
+    if rect is None:
+        raise InputError(path, "converter.rectifier", "a bridge-family converter needs a "
+                         "rectifier: " + ", ".join(schema.RECTIFIERS))
+    if rect == "current-doubler":
+        raise InputError(path, "converter.rectifier", "the current-doubler rectifier is "
+                         "not modelled yet; use center-tap or full-bridge")
+    if design.modulation != "pwm":
+        if top != "full-bridge":
+            raise InputError(path, "converter.modulation", "phase-shift modulation applies "
+                             "to the full-bridge only")
+        raise InputError(path, "converter.modulation", "phase-shift modulation is not "
+                         "modelled yet; use pwm")
+    roles = {
+        "switch": RoleSpec(4 if top == "full-bridge" else 2, kinds=("mosfet",)),
+        "rectifier": RoleSpec(2 if rect == "center-tap" else 4, kinds=("diode",)),
+        "transformer": RoleSpec(1),
+        "inductor": RoleSpec(1),
+        "output-capacitor": RoleSpec(None),
+    }
+    if top == "half-bridge":
+        roles["split-capacitor"] = RoleSpec(2)
+    else:
+        roles["input-capacitor"] = RoleSpec(None)
+    return Layout(top, rect, roles)
+
+
+def duty_limit(design, fs):
+    """Each switch conducts at most half a period less the dead time [1]."""
+    return 0.5 - design.dead_time * fs
+
+
+def duty_limit_reason(design) -> str:
+    text = "each switch conducts at most half a period"
+    return text + (" less the dead time" if design.dead_time else "")
 
 
 def evaluate(st: Stage) -> StageResult:
