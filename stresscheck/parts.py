@@ -13,10 +13,18 @@ from pathlib import Path
 
 from . import schema
 from .errors import InputError
-from .tomlio import check_keys, read_toml, require_str
+from .tomlio import check_keys, optional_text, read_toml, require_str, shorten, type_name
 from .units import Spread, parse_quantity, parse_spread
 
 PART_ID = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.-]{0,79}$")
+
+# Dimensions that are never negative on a part sheet (magnitudes as datasheets give them;
+# zero is allowed where the key is not in schema.POSITIVE_KEYS, e.g. an ideal r_d = 0).
+# Temperatures and temperature coefficients may be negative.
+NON_NEGATIVE_DIMENSIONS = ("voltage", "current", "frequency", "inductance", "capacitance",
+                           "resistance", "power", "time", "charge", "energy",
+                           "thermal_resistance", "flux_density", "area", "fraction",
+                           "count")
 
 
 @dataclass
@@ -69,12 +77,15 @@ def load_part(path: str | Path) -> Part:
     kind = require_str(doc, "kind", path, choices=schema.KINDS)
     technology = require_str(doc, "technology", path, choices=schema.TECHNOLOGIES[kind])
     description = require_str(doc, "description", path, optional=True) or ""
+    for key in ("notes", "source"):
+        optional_text(doc, key, path)
     part = Part(part_id, kind, technology, description, path)
     tables = schema.PART_KEYS[kind]
     for section in ("ratings", "electrical", "thermal"):
         table = doc.get(section, {})
         if not isinstance(table, dict):
-            raise InputError(path, section, f"[{section}] must be a table")
+            raise InputError(path, section, f"[{section}] must be a table, got "
+                             f"{type_name(table)}")
         check_keys(table, tables[section], path, prefix=f"{section}.")
         target = getattr(part, section)
         for key, raw in table.items():
@@ -87,10 +98,11 @@ def load_part(path: str | Path) -> Part:
                 value = parse_quantity(raw, spec.dimension, path, full)
                 low = value
             if key in schema.POSITIVE_KEYS and low <= 0:
-                raise InputError(path, full, "must be greater than zero")
-            if spec.dimension in ("resistance", "time", "charge", "capacitance",
-                                  "inductance") and low < 0:
-                raise InputError(path, full, "must not be negative")
+                raise InputError(path, full, f"must be greater than zero, got "
+                                 f"{shorten(raw)}")
+            if spec.dimension in NON_NEGATIVE_DIMENSIONS and low < 0:
+                raise InputError(path, full, f"must not be negative, got {shorten(raw)} "
+                                 "(give the magnitude the datasheet lists)")
             target[key] = value
     _check_consistency(part)
     return part
@@ -139,11 +151,14 @@ class PartLibrary:
     def get(self, part_id, where, key: str) -> Part:
         """Load part ``part_id``; ``where``/``key`` name the design entry that asked for it."""
         if not valid_part_id(part_id):
-            raise InputError(where, key, f"invalid part id {part_id!r}: letters, digits, "
-                             "'.', '_' and '-' only")
+            raise InputError(where, key, f"invalid part id {shorten(part_id)}: a string of "
+                             "letters, digits, '.', '_' and '-' (no path separators, no "
+                             "'..'), starting with a letter or digit, at most 80 characters")
         if part_id in self._cache:
             return self._cache[part_id]
         for folder in self.folders:
+            # part_id matches PART_ID (no separators, no ".."), so the candidate is a
+            # file directly inside ``folder``: a design cannot reach outside its libraries.
             candidate = folder / f"{part_id}.toml"
             if candidate.is_file():
                 part = load_part(candidate)

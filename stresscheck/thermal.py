@@ -56,9 +56,9 @@ def capacitor_life(technology, life_rated, t_max, t_hotspot):
     """Expected life [s] at the hot-spot temperature.
 
     Wet aluminium electrolytic: L = L0·2^((T_max − T_hs)/10 K) (the "×2 per 10 °C" rule of
-    capacitor makers' life notes; derating-standards.md §7, S20).
+    capacitor makers' life notes; docs/derating-sources.md §7, S20).
     Aluminium polymer: L = L0·10^((T_max − T_hs)/20 K) (the "×10 per 20 °C" rule of
-    polymer makers' notes; derating-standards.md §8 — from memory, medium confidence).
+    polymer makers' notes; docs/derating-sources.md §8 — from memory, medium confidence).
     Both hold roughly between 70 °C and T_max and are capped at 15 years.
     """
     if technology == "al-polymer":

@@ -17,8 +17,20 @@ from functools import lru_cache
 import pint
 
 from .errors import InputError
+from .tomlio import shorten, suggest, type_name
 
-_NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
+# number, then the unit text (surrounding blanks are stripped before matching).
+_NUMBER = re.compile(r"([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*)", re.DOTALL)
+_NON_FINITE = re.compile(r"[-+]?(?:nan|inf|infinity)\b", re.IGNORECASE)
+MAX_QUANTITY_TEXT = 100  # "4.7 uF"-style strings are short; longer text is not a value
+
+# Plausible magnitudes [SI]: a value outside 1e-15 .. 1e15 (zero excepted) is a unit
+# mistake (e.g. "4.7 F" for "4.7 uF" is still inside; "1e300 V" is not) and would
+# overflow the computation. Temperatures have their own limits.
+MIN_MAGNITUDE = 1e-15
+MAX_MAGNITUDE = 1e15
+ABSOLUTE_ZERO = -273.15  # [degC]
+MAX_TEMPERATURE = 5000.0  # [degC] above any component rating
 
 
 @lru_cache(maxsize=1)
@@ -63,47 +75,85 @@ def parse_quantity(value, dimension: str, path, key: str) -> float:
     """
     if dimension not in DIMENSIONS:  # programming error, not user error
         raise KeyError(dimension)
+    return _check_range(_parse(value, dimension, path, key), dimension, path, key, value)
+
+
+def _parse(value, dimension: str, path, key: str) -> float:
     if isinstance(value, bool):
-        raise InputError(path, key, f"expected a {dimension} value, got a boolean")
+        raise InputError(path, key, f"expected a {_name(dimension)} value such as "
+                         f"\"{_example(dimension)}\", got a boolean")
     if isinstance(value, (int, float)):
         number = float(value)
         _check_finite(number, path, key)
         return number
     if not isinstance(value, str):
-        raise InputError(path, key, f"expected a {dimension} value such as "
-                         f"\"{_example(dimension)}\", got {type(value).__name__}")
-    match = _NUMBER.match(value)
+        raise InputError(path, key, f"expected a {_name(dimension)} value such as "
+                         f"\"{_example(dimension)}\", got {type_name(value)}")
+    text = value.strip()
+    if len(text) > MAX_QUANTITY_TEXT:
+        raise InputError(path, key, f"cannot read {shorten(value)} as a quantity: too "
+                         f"long; expected a number and a unit, such as "
+                         f"\"{_example(dimension)}\"")
+    if _NON_FINITE.match(text):
+        raise InputError(path, key, f"value must be a finite number, got {shorten(value)}")
+    match = _NUMBER.fullmatch(text)
     if not match:
-        raise InputError(path, key, f"cannot read {value!r} as a quantity; expected a "
-                         f"number and a unit, such as \"{_example(dimension)}\"")
+        raise InputError(path, key, f"cannot read {shorten(value)} as a quantity; expected "
+                         f"a number and a unit, such as \"{_example(dimension)}\"")
     number = float(match.group(1))
     _check_finite(number, path, key)
-    unit_text = match.group(2)
+    unit_text = match.group(2).strip()
     if not unit_text:
         return number
     ureg = registry()
     try:
         unit = ureg.Unit(_normalise_unit(unit_text))
+        dimensionality = unit.dimensionality
     except Exception:
-        raise InputError(path, key, f"unknown unit {unit_text!r} in {value!r}; expected a "
-                         f"{dimension} unit such as \"{_example(dimension)}\"") from None
+        raise InputError(path, key, f"unknown unit {shorten(unit_text)} in {shorten(value)};"
+                         f" expected a {_name(dimension)} unit such as "
+                         f"\"{_example(dimension)}\"") from None
     reference = ureg.Unit(DIMENSIONS[dimension][0])
-    if dimension == "temperature":
-        if unit.dimensionality != reference.dimensionality:
-            raise _wrong_dimension(path, key, value, dimension)
-        return float(ureg.Quantity(number, unit).to("degC").magnitude)
-    if unit.dimensionality != reference.dimensionality:
+    if dimensionality != reference.dimensionality:
         raise _wrong_dimension(path, key, value, dimension)
-    if dimension == "temperature_difference":
-        # "25 K" and "25 delta_degC" are both differences; "25 degC" is read as 25 K too.
-        if str(unit) in ("degree_Celsius", "degC"):
-            return number
     try:
-        result = float(ureg.Quantity(number, unit).to(reference).magnitude)
+        quantity = ureg.Quantity(number, unit)
+        if dimension == "temperature":
+            result = float(quantity.to("degC").magnitude)
+        elif dimension == "temperature_difference" and not quantity._is_multiplicative:
+            # "25 degC" or "45 degF" given for a difference: read as a difference
+            # (25 K, 25 K), not as an absolute temperature.
+            result = float(ureg.Quantity(number, f"delta_{unit}").to(reference).magnitude)
+        else:
+            result = float(quantity.to(reference).magnitude)
     except Exception:
         raise _wrong_dimension(path, key, value, dimension) from None
     _check_finite(result, path, key)
     return result
+
+
+def _check_range(number: float, dimension: str, path, key: str, value) -> float:
+    """Refuse magnitudes no component or operating point has [SI units]."""
+    if dimension == "temperature":
+        if number < ABSOLUTE_ZERO:
+            raise InputError(path, key, f"{shorten(value)} is below absolute zero "
+                             "(-273.15 degC)")
+        if number > MAX_TEMPERATURE:
+            raise InputError(path, key, f"{shorten(value)} is above {MAX_TEMPERATURE:g} "
+                             "degC; not a plausible temperature")
+        return number
+    magnitude = abs(number)
+    if magnitude != 0 and not MIN_MAGNITUDE <= magnitude <= MAX_MAGNITUDE:
+        unit = unit_symbol(dimension)
+        raise InputError(path, key, f"{shorten(value)} = {number:.3g} {unit} is not a "
+                         f"plausible {_name(dimension)} (expected between "
+                         f"{MIN_MAGNITUDE:g} and {MAX_MAGNITUDE:g} {unit}, or 0); "
+                         "check the number and its unit prefix")
+    return number
+
+
+def _name(dimension: str) -> str:
+    return dimension.replace("_", " ")
 
 
 def _normalise_unit(text: str) -> str:
@@ -118,7 +168,7 @@ def _check_finite(number: float, path, key):
 
 
 def _wrong_dimension(path, key, value, dimension):
-    return InputError(path, key, f"{value!r} is not a {dimension.replace('_', ' ')}; "
+    return InputError(path, key, f"{shorten(value)} is not a {_name(dimension)}; "
                       f"expected a value such as \"{_example(dimension)}\"")
 
 
@@ -171,11 +221,14 @@ def parse_spread(value, dimension: str, path, key: str, *, allow_range: bool = T
     if isinstance(value, dict):
         if not allow_range:
             raise InputError(path, key, "a single value is expected here, not a range")
-        allowed = {"min", "nom", "max", "tolerance"}
-        unknown = sorted(set(value) - allowed)
+        allowed = ("min", "nom", "max", "tolerance")
+        unknown = sorted(set(value) - set(allowed))
         if unknown:
-            raise InputError(path, f"{key}.{unknown[0]}",
-                             "unknown field in a range; expected min, nom, max or tolerance")
+            field_name = unknown[0] if unknown[0].isprintable() and len(unknown[0]) <= 60 \
+                else shorten(unknown[0])
+            raise InputError(path, f"{key}.{field_name}", "unknown field in a range; "
+                             "expected min, nom, max or tolerance" + suggest(unknown[0],
+                                                                             allowed))
         if "tolerance" in value:
             if "nom" not in value:
                 raise InputError(path, key, "a tolerance needs a nominal value 'nom'")
@@ -195,7 +248,8 @@ def parse_spread(value, dimension: str, path, key: str, *, allow_range: bool = T
         lo = parts.get("min", parts.get("nom", parts.get("max")))
         hi = parts.get("max", parts.get("nom", parts.get("min")))
         if lo > hi:
-            raise InputError(path, key, f"min ({lo:g}) is above max ({hi:g})")
+            unit = unit_symbol(dimension)
+            raise InputError(path, key, f"min ({lo:g} {unit}) is above max ({hi:g} {unit})")
         nom = parts.get("nom", (lo + hi) / 2)
         if not lo <= nom <= hi:
             raise InputError(path, f"{key}.nom", "nom must lie between min and max")
