@@ -6,13 +6,15 @@ resolves every component's part through the parts libraries.
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from . import schema
 from .errors import InputError
 from .parts import Part, PartLibrary, shipped_library
-from .tomlio import check_keys, read_toml, require_str, require_table
+from .tomlio import (check_keys, optional_text, read_toml, require_str, require_table,
+                     shorten, type_name)
 from .topologies import layout_for
 from .units import Spread, parse_quantity, parse_spread
 
@@ -61,6 +63,10 @@ CONVERTER_KEYS = ("name", "topology", "rectifier", "modulation", "switching_freq
 OPERATING_KEYS = ("input_voltage", "input_surge", "output_voltage", "output_current",
                   "current_limit", "ambient_temperature")
 COMPONENT_KEYS = ("ref", "refs", "role", "part", "r_th_ca", "r_th_ja", "parallel", "note")
+MAX_NAME = 200  # converter.name: one line in report headers and on the terminal
+# A designator: up to 40 characters, no blanks or control characters ("Q1", "C10A", "T1.2").
+DESIGNATOR = re.compile(r"[^\s\x00-\x1f\x7f-\x9f]{1,40}")
+MAX_PARALLEL = 1000
 
 
 def part_folders(design_path: Path, extra_dirs) -> list[Path]:
@@ -76,8 +82,12 @@ def part_folders(design_path: Path, extra_dirs) -> list[Path]:
 def load_design(path: str | Path, parts_dirs=()) -> Design:
     path = Path(path)
     for folder in parts_dirs or ():
-        if not Path(folder).is_dir():
+        folder = Path(folder)
+        if not folder.exists():
             raise InputError(folder, None, "--parts folder does not exist")
+        if not folder.is_dir():
+            raise InputError(folder, None, "--parts expects a folder of part sheets, but "
+                             "this is a file")
     doc = read_toml(path, "design file")
     check_keys(doc, ("schema", "converter", "operating", "components"), path)
     version = require_str(doc, "schema", path)
@@ -137,17 +147,49 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
         raise InputError(path, "converter.dead_time", "dead time leaves no on-time at the "
                          "highest switching frequency")
 
-    name = conv.get("name", path.stem)
-    if not isinstance(name, str):
-        raise InputError(path, "converter.name", "expected a string")
+    name = optional_text(conv, "name", path, "converter.", max_length=MAX_NAME,
+                         single_line=True)
+    if name is None:
+        name = path.stem
+    elif not name.strip():
+        raise InputError(path, "converter.name", "must not be empty (leave the key out to "
+                         "use the file name)")
 
     design = Design(path, name, topology, rectifier, modulation, fsw, dead_time, max_duty,
                     vin, surge, vo, io, ilim, ta)
     library = PartLibrary(part_folders(path, parts_dirs))
     design.components = _load_components(doc, path, library)
+    check_plausibility(design)  # before layout_for: also for topologies not modelled yet
     layout = layout_for(design)  # raises on unsupported combinations
     layout.validate(design)
     return design
+
+
+def check_plausibility(design: Design) -> None:
+    """Refuse operating envelopes the topology cannot produce, naming the key.
+
+    A buck only steps down: its output must stay below the lowest input voltage (duty
+    ratio D = Vo/Vin < 1 at every corner). A boost only steps up: its output must stay
+    above the highest input voltage (D = 1 - Vin/Vo > 0). Each switch of a bridge-family
+    converter conducts at most half a period, so a controller limit max_duty above 50 %
+    cannot apply. (The transformer ratio of isolated converters is checked per corner by
+    the engine, which raises RegulationError.)
+    """
+    path, top = design.path, design.topology
+    vin, vo = design.input_voltage, design.output_voltage
+    if top == "buck" and vo.max >= vin.min:
+        raise InputError(path, "operating.output_voltage", f"a buck converter only steps "
+                         f"down: the output ({vo.max:g} V at most) must stay below the "
+                         f"lowest input voltage ({vin.min:g} V, operating.input_voltage)")
+    if top == "boost" and vo.min <= vin.max:
+        raise InputError(path, "operating.output_voltage", f"a boost converter only steps "
+                         f"up: the output ({vo.min:g} V at least) must stay above the "
+                         f"highest input voltage ({vin.max:g} V, operating.input_voltage)")
+    if (top in schema.BRIDGE_TOPOLOGIES and design.max_duty is not None
+            and design.max_duty > 0.5):
+        raise InputError(path, "converter.max_duty", f"each switch of a {top} conducts at "
+                         f"most 50 % of the period; a max_duty of {100 * design.max_duty:g} % "
+                         "cannot apply (it is the limit per switch)")
 
 
 def _load_components(doc, path, library) -> list[Component]:
@@ -156,6 +198,8 @@ def _load_components(doc, path, library) -> list[Component]:
         raise InputError(path, "components", "no [[components]] given")
     if not isinstance(entries, list) or not all(isinstance(e, dict) for e in entries):
         raise InputError(path, "components", "must be an array of tables [[components]]")
+    if not entries:
+        raise InputError(path, "components", "no [[components]] given")
     components: list[Component] = []
     seen_refs: dict[str, str] = {}
     for i, entry in enumerate(entries):
@@ -163,14 +207,22 @@ def _load_components(doc, path, library) -> list[Component]:
         check_keys(entry, COMPONENT_KEYS, path, f"{key}.")
         if ("ref" in entry) == ("refs" in entry):
             raise InputError(path, f"{key}.refs", "give either ref = \"Q1\" or refs = [...]")
+        rkey = f"{key}.ref" if "ref" in entry else f"{key}.refs"
         refs = [entry["ref"]] if "ref" in entry else entry["refs"]
-        if not isinstance(refs, list) or not refs or not all(
-                isinstance(r, str) and r.strip() for r in refs):
-            raise InputError(path, f"{key}.refs", "expected a non-empty list of designators")
+        if "ref" in entry and not isinstance(entry["ref"], str):
+            raise InputError(path, rkey, f"expected a designator string such as \"Q1\", "
+                             f"got {type_name(entry['ref'])}")
+        if not isinstance(refs, list) or not refs or not all(isinstance(r, str) for r in refs):
+            raise InputError(path, rkey, "expected a non-empty list of designators such as "
+                             "[\"Q1\", \"Q2\"]")
         for ref in refs:
+            if not DESIGNATOR.fullmatch(ref):
+                raise InputError(path, rkey, f"invalid designator {shorten(ref)}: 1 to 40 "
+                                 "characters, no blanks or control characters")
             if ref in seen_refs:
-                raise InputError(path, f"{key}.refs", f"duplicate designator '{ref}' (also "
-                                 f"in {seen_refs[ref]})")
+                where = ("listed twice in this entry" if seen_refs[ref] == key
+                         else f"also in {seen_refs[ref]}")
+                raise InputError(path, rkey, f"duplicate designator '{ref}' ({where})")
             seen_refs[ref] = key
         role = require_str(entry, "role", path, f"{key}.", choices=schema.ROLES)
         part_id = entry.get("part")
@@ -180,9 +232,12 @@ def _load_components(doc, path, library) -> list[Component]:
         if part.kind not in schema.ROLE_KINDS[role]:
             raise InputError(path, f"{key}.part", f"part '{part.id}' is a {part.kind}; role "
                              f"'{role}' takes " + " or ".join(schema.ROLE_KINDS[role]))
+        optional_text(entry, "note", path, f"{key}.")
         parallel = entry.get("parallel", 1)
-        if isinstance(parallel, bool) or not isinstance(parallel, int) or parallel < 1:
-            raise InputError(path, f"{key}.parallel", "expected a whole number of at least 1")
+        if (isinstance(parallel, bool) or not isinstance(parallel, int)
+                or not 1 <= parallel <= MAX_PARALLEL):
+            raise InputError(path, f"{key}.parallel", f"expected a whole number from 1 to "
+                             f"{MAX_PARALLEL}, got {shorten(parallel)}")
         comp = Component(refs=list(refs), role=role, part=part, parallel=parallel, key=key)
         for tkey in ("r_th_ca", "r_th_ja"):
             if tkey in entry:
