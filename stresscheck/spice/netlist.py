@@ -51,7 +51,7 @@ V_THERMAL = 8.617087e-5 * 300.15
 #: Switch off resistance [ohm] and gate thresholds [V] for 0/1 V gate pulses: on above
 #: VT + VH = 0.7 V, off below VT - VH = 0.3 V, so the on-time (0.7 ns into the rise to
 #: 0.7 ns into the fall) equals the pulse's mid-edge to mid-edge width.
-R_OFF = 1e6
+R_OFF = 1e7  # v²/R_OFF per blocking switch: 1e6 would leak ~5e-5 of the power at 48 V
 SW_VT, SW_VH = 0.5, 0.2
 T_EDGE = 1e-9  # [s] gate pulse rise and fall
 #: Input choke resonance with the input capacitance, as a fraction of f_sw: the real
@@ -60,6 +60,13 @@ T_EDGE = 1e-9  # [s] gate pulse rise and fall
 CHOKE_RESONANCE = {"short": 0.1, "real": 0.01}
 R_FLOAT = 1e7  # [ohm] common-mode anchor of a floating secondary
 STEPS_PER_PERIOD = 400  # maximum time step Ts/400
+#: Current tolerance [A]. The default 1 pA is below the round-off of the ~10 nA that an
+#: off diode branch carries beside amperes elsewhere: Newton never converges and the
+#: run stops with "timestep too small" (seen in a half-bridge at light load).
+ABSTOL = 1e-9
+#: Current at which the diode fit is exact, as a fraction of i_out (reflected for body
+#: diodes): a bridge rectifier conducts between i_out/2 (freewheel) and i_out.
+I_REF_FRACTION = 0.75
 IC_KEYS = ("lout", "lm", "lch", "cout", "cin", "ctop", "cbot")
 
 
@@ -71,12 +78,15 @@ class Layout:
     ----------
     switches : list of (sense, drain, source, body) names per switch position
     rectifiers : list of (offset source, anode node, cathode node) per rectifier position
+    freewheels, resets : the same for the 'freewheel' and 'reset' positions (forward)
     caps : dict position key -> (sense source, plus node, minus node, cap + node, cap - node)
     windings : dict winding label -> (sense source, resistance [ohm])
     """
 
     switches: list[tuple[str, str, str, str]] = field(default_factory=list)
     rectifiers: list[tuple[str, str, str]] = field(default_factory=list)
+    freewheels: list[tuple[str, str, str]] = field(default_factory=list)
+    resets: list[tuple[str, str, str]] = field(default_factory=list)
     caps: dict[tuple[str, int], tuple[str, str, str, str, str]] = field(default_factory=dict)
     windings: dict[str, tuple[str, float]] = field(default_factory=dict)
     r_load: float = 1.0  # [ohm]
@@ -91,7 +101,8 @@ def check_supported(c: Circuit) -> None:
     Raises
     ------
     NotImplementedError
-        Topology or rectifier outside :data:`TOPOLOGIES` / :data:`RECTIFIERS`.
+        Topology or rectifier outside :data:`TOPOLOGIES` / :data:`RECTIFIERS`,
+        phase-shift modulation, synchronous rectifiers.
     ValueError
         Position counts or capacitors that do not fit the topology.
     """
@@ -101,6 +112,12 @@ def check_supported(c: Circuit) -> None:
     if c.rectifier not in RECTIFIERS:
         raise NotImplementedError(f"ngspice netlist for rectifier {c.rectifier!r} not "
                                   f"available; valid: {', '.join(RECTIFIERS)}")
+    modulation = getattr(c, "modulation", "pwm")
+    if c.topology == "full-bridge" and modulation != "pwm":
+        raise NotImplementedError(f"ngspice netlist for {modulation!r} modulation not "
+                                  "available; valid: pwm")
+    if not all(isinstance(d, DiodeModel) for d in c.rectifiers):
+        raise NotImplementedError("ngspice netlist for synchronous rectifiers not available")
     n_sw = {"full-bridge": 4, "half-bridge": 2, "push-pull": 2}[c.topology]
     n_rect = {"center-tap": 2, "full-bridge": 4}[c.rectifier]
     if len(c.switches) != n_sw or len(c.rectifiers) != n_rect:
@@ -205,7 +222,7 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
     d.add(f"* stresscheck reference: {c.topology} / {c.rectifier} rectifier, "
           f"v_in={c.v_in:g} V, v_out={c.v_out:g} V, i_out={c.i_out:g} A, "
           f"f_sw={c.f_sw:g} Hz, duty={duty:.9f}, choke={choke}")
-    d.add(".options rshunt=1e9 reltol=1e-5")
+    d.add(f".options rshunt=1e9 reltol=1e-5 abstol={ABSTOL:g}")
     d.add(f".model didl D(IS={DIODE_IS:g} N={DIODE_N:g})")
     for k, sw in enumerate(c.switches):
         d.add(f".model sw{k} SW(RON={sw.r_on:.9g} ROFF={R_OFF:g} VT={SW_VT:g} VH={SW_VH:g})")
@@ -235,7 +252,7 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
             "half-bridge": [("bus", "sw", "1"), ("sw", "0", "2")],
             "push-pull": [("d1", "0", "1"), ("d2", "0", "2")]}[c.topology]
     # Switches with body diodes (anode at the source), a sense source in each drain lead.
-    i_body = c.i_out * c.n_s / c.n_p
+    i_body = I_REF_FRACTION * c.i_out * c.n_s / c.n_p
     for k, ((drain, source, gate), sw) in enumerate(zip(legs, c.switches)):
         d.add(f"vq{k} {drain} q{k}d 0")
         d.add(f"S{k} q{k}d {source} g{gate} 0 sw{k} OFF")
@@ -275,7 +292,7 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
         lay.windings[f"secondary-{k + 1}"] = (f"vw{k}", c.r_secondary)
 
     # Rectifier into node rect; output return is ground.
-    i_rect = c.i_out / 2
+    i_rect = I_REF_FRACTION * c.i_out
     if c.rectifier == "center-tap":
         winding(0, "sa", "0")  # V(sa) = +n·Vp
         winding(1, "0", "sb")  # V(sb) = -n·Vp
@@ -347,3 +364,17 @@ def diode_sweep_netlist(d: DiodeModel, i_ref: float, i_max: float, n: int = 50) 
     deck.add(f".dc Itest {step:.9g} {i_max:.9g} {step:.9g}")
     deck.add(".end")
     return "\n".join(deck.lines) + "\n"
+
+
+#: Netlist builder per topology, ``build(c, duty, t_stop, t_measure, ic, choke) -> (text,
+#: Layout)``; and, where it is not the bridges' half period, the largest duty ratio of
+#: the circuit, ``duty_limit(c) -> float``; and, where the bridges' output-filter and
+#: flux-bias shift does not apply, the slow-mode shift of ``simulate._slow_mode_shift``,
+#: ``shift(c, lay, w, duty) -> (filters, flux)``. Other families register theirs from
+#: their own modules, imported here.
+BUILDERS = dict.fromkeys(TOPOLOGIES, build)
+DUTY_LIMITS: dict = {}
+SLOW_MODE_SHIFTS: dict = {}
+
+from . import netlist_forward  # noqa: E402,F401  (registers the forward family)
+from . import netlist_flyback  # noqa: E402,F401  (registers the flyback)

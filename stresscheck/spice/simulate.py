@@ -7,6 +7,12 @@ steps, then secant) until the mean output voltage over whole periods is within
 search with the short input choke, then continue with the real one (warm-started) and
 accept only when a confirmation run at unchanged duty moves the mean output voltage and
 the mean inductor current by less than :data:`STEADY_TOL`.
+
+Between the runs of the search, the slow modes (output L-C ringing, input filter, flux
+bias) are shifted to their averaged equilibrium (:func:`_slow_mode_shift`), so that
+each run measures nearly the steady state of its duty; the confirmation run continues
+the previous run's filter state unchanged. The stresses are measured in the accepted
+confirmation run.
 """
 
 from __future__ import annotations
@@ -22,7 +28,8 @@ import numpy as np
 
 from ..errors import SimulationError
 from .circuit import Circuit, DiodeModel
-from .netlist import T_EDGE, Layout, analytic_ic, build, check_supported, diode_sweep_netlist
+from .netlist import (BUILDERS, DUTY_LIMITS, SLOW_MODE_SHIFTS, T_EDGE, TOPOLOGIES, Layout,
+                      analytic_ic, check_supported, diode_sweep_netlist)
 from .run import run_netlist
 
 N_MEASURE_PERIODS = 20  # switching periods in the measurement window at the end of a run
@@ -30,6 +37,7 @@ N_RUN_PERIODS = 100  # switching periods per run (output filters settle in a few
 V_TOL = 1e-4  # [1] regulation: |mean v_out / v_out - 1|
 STEADY_TOL = 1e-4  # [1] confirmation run: relative change of mean v_out and mean i_L
 MAX_RUNS = 40
+SLOPE_MAX = 10.0  # largest accepted secant slope of the duty search, in units of v/D
 
 
 @dataclass
@@ -92,24 +100,34 @@ class _Window:
         return float((np.interp(t1, self.t, cum) - np.interp(t0, self.t, cum)) / (t1 - t0))
 
 
-def _balance_correction(c: Circuit, w: _Window, duty: float, l_m: float) -> dict[str, float]:
-    """State shift that removes the flux-bias mode at the end of a run [A, V].
+def _slow_mode_shift(c: Circuit, lay: Layout, w: _Window,
+                     duty: float) -> tuple[dict[str, float], dict[str, float]]:
+    """State shifts that remove the slow modes at the end of a run [A, V].
 
-    The bias of the magnetizing current (half-bridge: with the midpoint offset) is a
-    mode of hundreds of periods, damped only by winding and switch resistances; a
-    run of 100 periods hardly sees it decay. Its steady state:
+    Returns the shift of the filters (output L-C, input choke and capacitors) and the
+    shift of the flux bias, both by netlist IC key. Both are added to a run's final
+    state before the next run of the duty search; before a confirmation run only the
+    flux shift, which leaves mean v_out and i_L alone. Offsets at the end of the run
+    are the last period's means extrapolated half a period with the period before.
 
-    - half-bridge: the split capacitors block DC, so the mean primary current is zero,
-      and the midpoint sits where the primary's volt-seconds balance. An offset dv of
-      the midpoint changes the magnetizing current by -2·dv·D·Ts/L_m per period, so
-      dv follows from the drift of the period means.
-    - full-bridge, push-pull: zero mean magnetizing current, by the half-wave symmetry
-      of the circuit (identical positions); an asymmetric circuit would settle at a
-      bias the engine does not model either.
-
-    Offsets at the end of the run are the last period's means extrapolated half a
-    period with the period before.
+    - Output filter: with a light load the L-C filter rings for hundreds of periods
+      (Q = R·sqrt(C/L) reaches 10 or more). Over whole periods its averaged equilibrium
+      is i_L = <v_rect>/(R_load + DCR), v_C = R_load·i_L with the rectified voltage
+      <v_rect> of the last period; the drops' change with current is left to the
+      next run.
+    - Flux bias, full-bridge and push-pull: zero mean magnetizing current, by the
+      half-wave symmetry of the circuit (identical positions); an asymmetric circuit
+      would settle, over milliseconds, at a bias the engine does not model either.
+    - Flux bias, half-bridge: the split capacitors block DC, so the mean primary
+      current is zero, and the midpoint sits where the primary's volt-seconds
+      balance. A symmetric circuit has zero mean magnetizing current and the
+      midpoint at half the bus. Otherwise (less precise, so more runs): a bias di
+      of the magnetizing current flows in the primary only while a switch conducts,
+      adding 2·D·di to the mean primary current; an offset dv of the midpoint changes
+      the magnetizing current by -2·dv·D·Ts/L_m per period.
     """
+    if c.topology in SLOW_MODE_SHIFTS:  # families without an output L-C (flyback)
+        return SLOW_MODE_SHIFTS[c.topology](c, lay, w, duty)
     ts = 1.0 / c.f_sw
     t1 = w.t[-1]
 
@@ -118,11 +136,35 @@ def _balance_correction(c: Circuit, w: _Window, duty: float, l_m: float) -> dict
         before = w.mean_between(x, t1 - 2 * ts, t1 - ts)
         return 1.5 * last - 0.5 * before, last - before
 
+    # Input filter: the bus settles at v_in, the choke current at the bridge's mean draw.
+    v_bus = w["v(bus)"]
+    cap_sense = lay.caps[("split-capacitor", 0) if c.topology == "half-bridge"
+                         else ("input-capacitor", 0)][0]
+    i_choke = w["i(lch)"]
+    i_bridge = i_choke + (c.v_in - v_bus) / lay.r_damp - w[f"i({cap_sense})"]
+    scale = c.v_in / w.mean_between(v_bus, t1 - ts, t1)  # v_rect follows the bus
+    # Output filter at its averaged equilibrium for that bus voltage.
+    _, _, _, cp, cm = lay.caps[("output-capacitor", 0)]
+    i_l = ends(w["i(lout)"])[0]
+    i_eq = scale * w.mean_between(w["v(rect)"], t1 - ts, t1) / (lay.r_load + c.dcr_out)
+    filters = {"lout": i_eq - i_l,
+               "cout": lay.r_load * i_eq - ends(w[f"v({cp})"] - w[f"v({cm})"])[0],
+               "lch": ends(i_bridge)[0] * i_eq / i_l - ends(i_choke)[0]}
+    dv_bus = c.v_in - ends(v_bus)[0]
+    if c.topology not in TOPOLOGIES:  # forward: the core resets every period, no bias
+        filters["cin"] = dv_bus
+        return filters, {}
     if c.topology != "half-bridge":
-        return {"lm": -ends(w["i(lm)"])[0]}
-    i_bias = ends(w["i(vp1)"])[0]
-    dv = -l_m * ends(w["i(lm)"])[1] / (2 * duty * ts)
-    return {"lm": -i_bias, "ctop": dv, "cbot": -dv}
+        filters["cin"] = dv_bus
+        return filters, {"lm": -ends(w["i(lm)"])[0]}
+    filters.update(ctop=dv_bus / 2, cbot=dv_bus / 2)
+    if c.c_split[0] == c.c_split[1] and c.switches[0] == c.switches[1]:
+        di = -ends(w["i(lm)"])[0]
+        dv = ends(w["v(mid)"] - 0.5 * v_bus)[0]
+    else:
+        di = -ends(w["i(vp1)"])[0] / (2 * duty)
+        dv = -lay.l_m * ends(w["i(lm)"])[1] / (2 * duty * ts)
+    return filters, {"lm": di, "ctop": dv, "cbot": -dv}
 
 
 def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float,
@@ -139,7 +181,7 @@ def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float,
     t_a : float
         Start of the window [s]; it ends with the data.
     duty : float
-        Duty ratio of the run [1], for the flux-bias correction.
+        Duty ratio of the run [1], for the half-bridge flux-bias shift.
 
     Returns
     -------
@@ -147,11 +189,15 @@ def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float,
         ``positions`` (per role and index: switch ``v_peak``, ``i_peak``, ``i_rms``;
         rectifier ``v_reverse_peak``, ``i_avg``, ``i_rms``, ``i_peak``; inductor ``i_peak``,
         ``i_rms``; capacitors ``i_ripple_rms``, ``v_peak``; transformer ``i_m_peak`` and
-        ``b_peak`` where ``core_area`` is set) [V, A, T], ``means`` and ``final`` (the
-        state at the end, by netlist IC key) and ``diagnostics``.
+        ``b_peak`` where ``core_area`` is set) [V, A, T], ``means``, ``final`` (the
+        state at the end, by netlist IC key), ``shift`` and ``flux_shift`` (see
+        :func:`_slow_mode_shift`) and ``diagnostics``.
     """
     w = _Window(vec, t_a)
-    v = lambda node: w[f"v({node})"] if node != "0" else np.zeros_like(w.t)  # noqa: E731
+
+    def v(node: str) -> np.ndarray:
+        return w[f"v({node})"] if node != "0" else np.zeros_like(w.t)
+
     pos: dict[tuple[str, int], dict[str, float]] = {}
     diag: dict[str, float] = {}
     for k, (sense, drain, source, body) in enumerate(lay.switches):
@@ -161,13 +207,18 @@ def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float,
         diag[f"switch-{k}.i_channel_rms"] = w.rms(i + i_b)  # body current flows source -> drain
         diag[f"switch-{k}.i_body_avg"] = w.mean(i_b)
         diag[f"switch-{k}.i_body_rms"] = w.rms(i_b)
-    for k, (src, anode, cathode) in enumerate(lay.rectifiers):
-        i = w[f"i({src})"]
-        pos[("rectifier", k)] = {"v_reverse_peak": float(np.max(v(cathode) - v(anode))),
-                                 "i_avg": w.mean(i), "i_rms": w.rms(i),
-                                 "i_peak": float(np.max(np.abs(i)))}
-    i_l = w["i(lout)"]
-    pos[("inductor", 0)] = {"i_peak": float(np.max(np.abs(i_l))), "i_rms": w.rms(i_l)}
+    for role, diodes in (("rectifier", lay.rectifiers), ("freewheel", lay.freewheels),
+                         ("reset", lay.resets)):
+        for k, (src, anode, cathode) in enumerate(diodes):
+            i = w[f"i({src})"]
+            pos[(role, k)] = {"v_reverse_peak": float(np.max(v(cathode) - v(anode))),
+                              "i_avg": w.mean(i), "i_rms": w.rms(i),
+                              "i_peak": float(np.max(np.abs(i)))}
+    # The output inductor; without one (flyback) the magnetizing current stands in for
+    # it in the steady-state test.
+    i_l = w["i(lout)"] if "i(lout)" in vec else w["i(lm)"]
+    if "i(lout)" in vec:
+        pos[("inductor", 0)] = {"i_peak": float(np.max(np.abs(i_l))), "i_rms": w.rms(i_l)}
     for key, (sense, plus, minus, _, _) in lay.caps.items():
         i = w[f"i({sense})"]
         pos[key] = {"i_ripple_rms": w.rms(i), "v_peak": float(np.max(v(plus) - v(minus)))}
@@ -176,7 +227,7 @@ def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float,
     i_m_peak = float(np.max(np.abs(i_m)))
     xf = {"i_m_peak": i_m_peak}
     if c.core_area:
-        xf["b_peak"] = c.l_m * i_m_peak / (c.n_p * c.core_area)
+        xf["b_peak"] = lay.l_m * i_m_peak / (c.n_p * c.core_area)
     pos[("transformer", 0)] = xf
     for label, (sense, _) in lay.windings.items():
         diag[f"{label}.i_rms"] = w.rms(w[f"i({sense})"])
@@ -205,19 +256,24 @@ def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float,
         final[ic_key] = float(vc[-1])
         e_change += 0.5 * cap.capacitance * (vc[-1] ** 2 - vc[0] ** 2)
     for name, ind in (("lout", c.l_out), ("lm", lay.l_m), ("lch", lay.l_choke)):
+        if f"i({name})" not in vec:
+            continue
         x = w[f"i({name})"]
         final[name] = float(x[-1])
         e_change += 0.5 * ind * (x[-1] ** 2 - x[0] ** 2)
     diag["p_stored"] = e_change / w.length
-    balance = _balance_correction(c, w, duty, lay.l_m)
+    shift = _slow_mode_shift(c, lay, w, duty)
     if c.topology == "half-bridge":
         diag["v_mid_mean"] = w.mean(v("mid"))
     return {"positions": pos, "means": means, "final": final, "diagnostics": diag,
-            "p_in": p_in, "p_out": p_out, "balance": balance}
+            "p_in": p_in, "p_out": p_out, "shift": shift[0], "flux_shift": shift[1]}
 
 
 def _duty_limit(c: Circuit) -> float:
-    """Largest duty that keeps the two half-cycles apart (dead time, gate edges) [1]."""
+    """Largest duty that keeps the two half-cycles apart (dead time, gate edges) [1];
+    other topologies' limits from ``netlist.DUTY_LIMITS``."""
+    if c.topology in DUTY_LIMITS:
+        return DUTY_LIMITS[c.topology](c)
     return 0.5 - (c.dead_time + 2 * T_EDGE) * c.f_sw
 
 
@@ -229,8 +285,9 @@ def _next_duty(points: list[tuple[float, float]], target: float, d_max: float) -
         d1, v1 = points[-2]
         if d2 != d1:
             slope = (v2 - v1) / (d2 - d1)
-            # The converter's gain dv/dD lies near v/D (more with conduction drops).
-            if 0.5 * v2 / d2 < slope < 3.0 * v2 / d2:
+            # The converter's gain dv/dD lies near v/D (more with conduction drops),
+            # v/(D·(1 − D)) for boost-like stages (a flyback in CCM).
+            if 0.5 * v2 / d2 < slope < SLOPE_MAX * v2 / d2:
                 d_new = d2 + (target - v2) / slope
     d_new = min(max(d_new, 0.5 * d2), 1.5 * d2)  # no wild steps
     return min(max(d_new, 1e-3), d_max)
@@ -240,7 +297,7 @@ def _run(c: Circuit, duty: float, ic: dict, choke: str, workdir: Path,
          periods: int) -> tuple[dict, str]:
     ts = 1.0 / c.f_sw
     t_stop, t_meas = periods * ts, N_MEASURE_PERIODS * ts
-    text, lay = build(c, duty, t_stop, t_meas, ic, choke)
+    text, lay = BUILDERS[c.topology](c, duty, t_stop, t_meas, ic, choke)
     vec = run_netlist(text, workdir)
     return measure(c, lay, vec, t_stop - t_meas, duty), text
 
@@ -270,7 +327,8 @@ def simulate(c: Circuit, *, keep_netlist: Path | None = None) -> SimResult:
     ValueError
         The circuit lacks positions its topology needs.
     """
-    check_supported(c)
+    if c.topology not in BUILDERS or c.topology in TOPOLOGIES:
+        check_supported(c)  # other families' builders check their circuit themselves
     t0 = time.perf_counter()
     d_max = _duty_limit(c)
     duty = min(max(c.duty, 1e-3), d_max)
@@ -280,20 +338,22 @@ def simulate(c: Circuit, *, keep_netlist: Path | None = None) -> SimResult:
     with tempfile.TemporaryDirectory(prefix="stresscheck-spice-") as tmp:
         for n_run in range(1, MAX_RUNS + 1):
             m, text = _run(c, duty, ic, choke, Path(tmp), N_RUN_PERIODS)
-            ic = {k: x + m["balance"].get(k, 0.0) for k, x in m["final"].items()}
             v_mean, i_mean = m["means"]["v_out"], m["means"]["i_l"]
-            if abs(v_mean / c.v_out - 1) < V_TOL:
-                if choke == "short":
-                    choke = "real"
-                    ic["lch"] = m["means"]["i_choke"]  # the real choke carries DC only
-                    continue
+            if abs(v_mean / c.v_out - 1) < V_TOL and choke == "real":
                 if ref is not None:  # this was the confirmation run
                     dv, di = abs(v_mean / ref[0] - 1), abs(i_mean / ref[1] - 1)
                     if dv < STEADY_TOL and di < STEADY_TOL:
                         break
-                ref = (v_mean, i_mean)  # confirm at unchanged duty
+                ref = (v_mean, i_mean)  # confirm at unchanged duty and filter state
+                ic = {k: x + m["flux_shift"].get(k, 0.0) for k, x in m["final"].items()}
                 continue
             ref = None
+            ic = {k: x + m["shift"].get(k, 0.0) + m["flux_shift"].get(k, 0.0)
+                  for k, x in m["final"].items()}
+            if abs(v_mean / c.v_out - 1) < V_TOL:
+                choke = "real"
+                ic["lch"] = m["means"]["i_choke"]  # the real choke carries DC only
+                continue
             points.append((duty, v_mean))
             new = _next_duty(points, c.v_out, d_max)
             if new >= d_max and duty >= d_max:
@@ -305,6 +365,8 @@ def simulate(c: Circuit, *, keep_netlist: Path | None = None) -> SimResult:
                                   f"(duty {duty:.6f}, mean v_out {v_mean:.6g} V)")
     diag = dict(m["diagnostics"])
     diag.update(runs=n_run, wall_time=time.perf_counter() - t0, steady_dv=dv, steady_di=di)
+    if getattr(c, "l_leak", 0.0):
+        diag["l_leak_ignored"] = c.l_leak  # no clamp or snubber modelled for its energy
     res = SimResult(duty=duty, v_out_mean=v_mean, p_in=m["p_in"], p_out=m["p_out"],
                     positions=m["positions"], diagnostics=diag)
     if keep_netlist is not None:
@@ -328,7 +390,25 @@ def result_json(c: Circuit, res: SimResult) -> dict:
 
 def diode_dc_sweep(d: DiodeModel, i_ref: float, i_max: float, n: int = 50,
                    workdir: Path | None = None) -> tuple[np.ndarray, np.ndarray]:
-    """Currents [A] and terminal voltages [V] of the straight-line diode model in ngspice."""
+    """DC sweep of the straight-line diode model in ngspice.
+
+    Parameters
+    ----------
+    d : DiodeModel
+    i_ref : float
+        Current at which the model's offset is fitted [A].
+    i_max : float
+        Largest current of the sweep, which runs from i_max/n in n steps [A].
+    n : int
+        Number of sweep points.
+    workdir : Path, optional
+        Folder for the deck and raw file (default: a temporary one).
+
+    Returns
+    -------
+    (numpy.ndarray, numpy.ndarray)
+        Forward currents [A] and terminal voltages [V].
+    """
     with tempfile.TemporaryDirectory(prefix="stresscheck-diode-") as tmp:
         vec = run_netlist(diode_sweep_netlist(d, i_ref, i_max, n), workdir or tmp)
     return vec["i(vdt)"], vec["v(a)"]  # the offset source carries the diode current

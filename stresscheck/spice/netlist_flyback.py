@@ -1,0 +1,224 @@
+"""ngspice transient netlists of one corner of a flyback converter (diode rectifier).
+
+Models as in :mod:`stresscheck.spice.netlist` and the project's ngspice notes: an ``S``
+switch with an antiparallel body diode, a straight-line rectifier diode (offset source +
+near-ideal diode + slope resistor), C with ESR and a 0 V sense source, a DC input behind
+a damped choke. The coupled inductor is the magnetizing inductance ``lm`` across the
+primary emf (after the primary resistance) plus an ideal transformer from controlled
+sources: the secondary is an E source ``V(w0e) − V(sa) = (N_s/N_p)·V(p1, pd)`` in series
+with its resistance and the sense source ``vw0``, its dot at ground, reflected to the
+primary by an F source drawing −(N_s/N_p)·i_s. While the switch conducts, the anode
+``sa`` sits at −(N_s/N_p)·V(p1, pd) and the rectifier blocks; when it opens, the
+magnetizing current has nowhere to go but into the secondary, through the rectifier:
+the secondary carries current only while the switch is off, and the diode ends it at
+zero in discontinuous conduction. Leakage inductance is left out, like in the analytic
+model (stresses "before any spike"; no clamp or snubber is modelled).
+
+Element names are those of :mod:`stresscheck.spice.netlist` (same :class:`Layout`):
+
+======================  ==========================================================
+``vq0``                 sense source in the drain lead of the switch, from the
+                        primary's undotted end ``pd`` to the drain; source at ground
+``vp1``                 primary current sense, from ``bus`` into the dot
+``lm``                  magnetizing inductance, from ``p1`` (dot, after R_p) to ``pd``
+``vw0``                 secondary current sense, from ground (dot) into the winding
+``vd0``                 offset source of the rectifier, anode ``sa``, cathode ``out``
+``vco`` / ``vci``       output / input capacitor current sense (into the capacitor)
+``lch``                 input choke (``vsrc`` -> ``bus``)
+======================  ==========================================================
+
+There is no output inductor (``lout``); the measurement code reads ``i(lm)`` in its place
+for the steady-state test. The slow modes (the output capacitor against the magnetizing
+inductance in CCM, against the load in DCM, and the input filter) are shifted to their
+averaged equilibrium between the runs of the duty search by :func:`slow_mode_shift`
+(registered in ``netlist.SLOW_MODE_SHIFTS``).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from . import netlist
+from .circuit import Circuit, DiodeModel
+from .netlist import (ABSTOL, DIODE_IS, DIODE_N, R_OFF, STEPS_PER_PERIOD, SW_VH, SW_VT,
+                      T_EDGE, Layout, _Deck, _gate, analytic_ic, choke_values,
+                      switching_period)
+
+TOPOLOGIES = ("flyback",)
+#: The magnetizing current counts as continuous when its minimum over a period is above
+#: this share of its peak (simulated; the analytic regime is not used).
+CCM_SHARE = 0.01
+
+
+def check_supported(c: Circuit) -> None:
+    """Check that ``c`` is a flyback circuit this module builds.
+
+    Raises
+    ------
+    NotImplementedError
+        Another topology, or a MOSFET rectifier (synchronous rectifiers are not modelled).
+    ValueError
+        Position counts, magnetizing inductance or capacitors that do not fit.
+    """
+    if c.topology not in TOPOLOGIES:
+        raise NotImplementedError(f"flyback netlist for topology {c.topology!r} not "
+                                  f"available; valid: {', '.join(TOPOLOGIES)}")
+    if len(c.switches) != 1 or len(c.rectifiers) != 1:
+        raise ValueError(f"a flyback needs 1 switch and 1 rectifier, got "
+                         f"{len(c.switches)} and {len(c.rectifiers)}")
+    if not isinstance(c.rectifiers[0], DiodeModel):
+        raise NotImplementedError("synchronous rectifiers are not modelled for the flyback")
+    if not (math.isfinite(c.l_m) and 0 < c.l_m < 1.0):
+        raise ValueError(f"a flyback needs its magnetizing inductance, got l_m = {c.l_m!r}")
+    if c.c_out is None or c.c_in is None:
+        raise ValueError("a flyback needs c_in and c_out")
+
+
+def duty_limit(c: Circuit) -> float:
+    """Largest duty ratio of the circuit [1]: the switch must open in each period for
+    the secondary to conduct at all; less the gate edges."""
+    return 1.0 - 4 * T_EDGE * c.f_sw
+
+
+def _rectifier_ref_current(c: Circuit, duty: float) -> float:
+    """Mean rectifier current over its conduction interval [A], where the diode fit is
+    exact: I_o/D_2 with D_2 = 1 − D (CCM) or, lossless DCM, n·V_in·D/V_o (volt-second
+    balance), whichever is shorter."""
+    n = c.n_s / c.n_p
+    d2 = min(1.0 - duty, n * c.v_in * duty / max(c.v_out, 1e-9))
+    return c.i_out / max(d2, 1e-3)
+
+
+def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
+          ic: dict | None, choke: str) -> tuple[str, Layout]:
+    """Netlist text and its :class:`Layout` (contract of :func:`netlist.build`)."""
+    check_supported(c)
+    ts = switching_period(c)
+    ic = {**analytic_ic(c), **(ic or {})}
+    lay = Layout()
+    d = _Deck()
+    d.add(f"* stresscheck reference: flyback, diode rectifier, v_in={c.v_in:g} V, "
+          f"v_out={c.v_out:g} V, i_out={c.i_out:g} A, f_sw={c.f_sw:g} Hz, "
+          f"duty={duty:.9f}, regime={c.regime}, choke={choke}")
+    d.add(f".options rshunt=1e9 reltol=1e-5 abstol={ABSTOL:g}")
+    d.add(f".model didl D(IS={DIODE_IS:g} N={DIODE_N:g})")
+    (sw,) = c.switches
+    d.add(f".model sw0 SW(RON={sw.r_on:.9g} ROFF={R_OFF:g} VT={SW_VT:g} VH={SW_VH:g})")
+
+    # Input: source -> choke || damping -> bus, and the input capacitors.
+    l_ch, r_damp = choke_values(c, choke)
+    lay.l_choke, lay.r_damp = l_ch, r_damp
+    d.add(f"Vin vsrc 0 DC {c.v_in:.12g}")
+    d.add(f"Lch vsrc bus {l_ch:.12g} IC={ic['lch']:.12g}")
+    d.add(f"Rdamp vsrc bus {r_damp:.12g}")
+    lay.caps[("input-capacitor", 0)] = d.cap("ci", "bus", "0", c.c_in.capacitance,
+                                              c.c_in.esr, ic["cin"])
+
+    # Switch from the primary's undotted end to ground, on from t = 0 for duty·Ts.
+    n = c.n_s / c.n_p
+    _gate(d, "1", 0.0, duty * ts, ts)
+    d.add("vq0 pd q0d 0")
+    d.add("S0 q0d 0 g1 0 sw0 OFF")
+    body = d.diode("b0", "0", "q0d", sw.body, n * c.i_out / max(1.0 - duty, 1e-3))
+    lay.switches.append(("vq0", "pd", "0", body))
+
+    # Primary (dot at the bus) with its resistance, the magnetizing inductance across
+    # the emf (p1, pd).
+    d.add("vp1 bus p1r 0")
+    d.res("p1", "p1r", "p1", c.r_primary)
+    lay.windings["primary"] = ("vp1", c.r_primary)
+    lay.l_m = c.l_m
+    d.add(f"Lm p1 pd {c.l_m:.12g} IC={ic['lm']:.12g}")
+
+    # Secondary: dot at ground, so V(sa) = −n·V(p1, pd) at zero current; rectifier
+    # from sa to the output.
+    d.add("vw0 0 w0i 0")
+    d.res("w0", "w0i", "w0e", c.r_secondary)
+    d.add(f"Ew0 w0e sa p1 pd {n:.12g}")
+    d.add(f"Fw0 p1 pd vw0 {-n:.12g}")
+    lay.windings["secondary-1"] = ("vw0", c.r_secondary)
+    i_ref = _rectifier_ref_current(c, duty)
+    lay.rectifiers.append((d.diode("d0", "sa", "out", c.rectifiers[0], i_ref), "sa", "out"))
+
+    # Output capacitors and load.
+    lay.caps[("output-capacitor", 0)] = d.cap("co", "out", "0", c.c_out.capacitance,
+                                               c.c_out.esr, ic["cout"])
+    lay.r_load = c.v_out / c.i_out
+    d.add(f"Rload out 0 {lay.r_load:.12g}")
+
+    t_start = max(t_stop - t_measure - ts / STEPS_PER_PERIOD, 0.0)
+    h = ts / STEPS_PER_PERIOD
+    d.add(f".tran {h:.12g} {t_stop:.12g} {t_start:.12g} {h:.12g} uic")
+    d.add(".end")
+    return "\n".join(d.lines) + "\n", lay
+
+
+def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
+    """State shifts that bring a run's final state to its averaged equilibrium [A, V].
+
+    Same contract as ``simulate._slow_mode_shift``: (shift of the filter states, shift of
+    the flux bias) by netlist IC key; a flyback has no flux bias apart from its
+    magnetizing current, which is a filter state here, so the second is empty.
+
+    One Newton step on the state-space averaged model (Erickson & Maksimović,
+    Fundamentals of Power Electronics, 2nd ed., ch. 7, the buck-boost with a transformer
+    — from memory), x* = x − A⁻¹·ẋ, with the drift ẋ of the period means over the last
+    two periods and, with i the magnetizing current [A] and v the output capacitance
+    voltage [V]:
+
+    - CCM (the simulated magnetizing current stays above ``CCM_SHARE`` of its peak):
+        L_m·di/dt = D·(V_in − R_a·i) − (1 − D)·(v + v_f0 + R_b·i/n)/n
+        C·dv/dt   = (1 − D)·i/n − v/R
+      R_a = R_on + R_p + ESR_in, R_b = r_d + R_s + ESR_out. A lightly loaded output
+      (quality factor of 20 or more) would otherwise ring for thousands of periods.
+    - DCM: the magnetizing current starts from zero every period; only v is a state,
+        C·dv/dt = I_s(v) − v/R,   dI_s/dv = −I_s/(v + v_f0)
+      (the energy per cycle is set by the duty, the secondary current by its voltage).
+    - Input filter: the bus settles at V_in, the choke at the mean primary current,
+      scaled with the output power change.
+    """
+    ts = 1.0 / c.f_sw
+    t1 = w.t[-1]
+
+    def ends(x):
+        last = w.mean_between(x, t1 - ts, t1)
+        before = w.mean_between(x, t1 - 2 * ts, t1 - ts)
+        return 1.5 * last - 0.5 * before, last - before
+
+    n = c.n_s / c.n_p
+    last = w.t >= t1 - ts
+    i_m = w["i(lm)"]
+    _, _, _, cp, cm = lay.caps[("output-capacitor", 0)]
+    v_c, dv = ends(w[f"v({cp})"] - w[f"v({cm})"])
+    cap, r_load = c.c_out.capacitance, lay.r_load
+    rect = c.rectifiers[0]
+    filters: dict[str, float] = {}
+    if np.min(i_m[last]) > CCM_SHARE * np.max(i_m[last]):
+        _, di = ends(i_m)
+        a = 1.0 - duty
+        r_a = c.switches[0].r_on + c.r_primary + c.c_in.esr
+        r_b = rect.r_d + c.r_secondary + c.c_out.esr
+        jac = np.array([[-(duty * r_a + a * r_b / n ** 2) / lay.l_m, -a / (n * lay.l_m)],
+                        [a / (n * cap), -1.0 / (r_load * cap)]])
+        step = -np.linalg.solve(jac, np.array([di, dv]) / ts)
+        filters["lm"], filters["cout"] = float(step[0]), float(step[1])
+    else:
+        (src, _, _), = lay.rectifiers
+        i_s = w.mean_between(w[f"i({src})"], t1 - ts, t1)
+        slope = i_s / (v_c + rect.v_f0) + 1.0 / r_load
+        filters["cout"] = float(dv / ts * cap / slope)
+
+    v_bus = w["v(bus)"]
+    i_draw = w.mean_between(w["i(vp1)"], t1 - ts, t1)
+    power = ((v_c + filters["cout"]) / v_c) ** 2
+    filters["lch"] = (i_draw * power * w.mean_between(v_bus, t1 - ts, t1) / c.v_in
+                      - ends(w["i(lch)"])[0])
+    filters["cin"] = c.v_in - ends(v_bus)[0]
+    return filters, {}
+
+
+netlist.BUILDERS.update(dict.fromkeys(TOPOLOGIES, build))
+netlist.DUTY_LIMITS.update(dict.fromkeys(TOPOLOGIES, duty_limit))
+netlist.SLOW_MODE_SHIFTS.update(dict.fromkeys(TOPOLOGIES, slow_mode_shift))
