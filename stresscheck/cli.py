@@ -1,13 +1,16 @@
 """Command line: ``stresscheck check | demo | verify``.
 
 Exit status: 0 nothing fails, 1 a check fails (or is unrated / not computed), 2 the input
-is unusable (message names file and key; never a traceback).
+is unusable (message names file and key; never a traceback), 3 an internal error (a bug:
+a one-line message asks for a report, still no traceback).
 """
 
 from __future__ import annotations
 
 import argparse
 import datetime as _dt
+import math
+import os
 import sys
 from importlib import resources
 from pathlib import Path
@@ -47,33 +50,97 @@ def demo_design() -> Path:
 
 def run_check(design_path: Path, parts, policy_name, out_dir: Path, *, date=None):
     """Load, evaluate, check and write the reports. Returns (results, paths, checks)."""
+    import numpy as np
+
     from .checks import run_checks
     from .design import load_design
     from .engine import run
     from .policy import load_policy
-    from .report.writer import write_reports
+    from .report.writer import check_output, write_reports
     from .results import build_results
 
+    out_dir = Path(out_dir)
     design = load_design(design_path, parts)
     policy = load_policy(policy_name)
     _refuse_inputs_as_output(out_dir, design, policy)
-    evaluation = run(design)
-    checks = run_checks(evaluation, policy)
-    results = build_results(evaluation, checks, policy)
+    check_output(out_dir)  # a foreign file in the way: refuse before any work is done
+    # Overflow in the models surfaces as a non-finite result, refused below with a
+    # message; numpy's warnings (source lines) are no help to a user.
+    with np.errstate(all="ignore"):
+        evaluation = run(design)
+        checks = run_checks(evaluation, policy)
+        results = build_results(evaluation, checks, policy)
+    _refuse_non_finite(results, design)
     context = {"date": date or _dt.date.today().isoformat(), "tool_version": __version__}
     paths = write_reports(results, context, out_dir)
     return results, paths, checks
 
 
+def _input_paths(design, policy) -> list[Path]:
+    paths = [design.path, policy.path]
+    paths += [c.part.path for c in design.components]
+    return [Path(p) for p in paths]
+
+
+def _same_file(a: Path, b: Path) -> bool:
+    """True if ``a`` and ``b`` are one file (symbolic and hard links included)."""
+    try:
+        if a.resolve() == b.resolve():
+            return True
+        return a.exists() and b.exists() and os.path.samefile(a, b)
+    except OSError:
+        return False
+
+
 def _refuse_inputs_as_output(out_dir: Path, design, policy):
-    inputs = {design.path.resolve(), policy.path.resolve()}
-    inputs |= {c.part.path.resolve() for c in design.components}
+    """Refuse an output folder or report file that is one of the run's input files (the
+    design, the policy, any part sheet the design uses): inputs are never written."""
+    out_dir = Path(out_dir)
+    inputs = _input_paths(design, policy)
+    for path in inputs:
+        if _same_file(out_dir, path):
+            raise InputError(out_dir, None, f"the output folder is an input file "
+                             f"({path}); choose another --out")
     for name in ("report.html", "report.xlsx", "results.json"):
-        target = (out_dir / name).resolve()
-        if target in inputs:
-            raise InputError(out_dir, None, f"output {name} would overwrite an input file")
-    if out_dir.resolve() in inputs:
-        raise InputError(out_dir, None, "the output folder is an input file")
+        target = out_dir / name
+        for path in inputs:
+            if _same_file(target, path):
+                raise InputError(out_dir, None, f"output {name} would overwrite the input "
+                                 f"file {path}; choose another --out")
+
+
+def _non_finite(value, where=""):
+    """Path of the first NaN or infinity in a JSON-like value, or None."""
+    if isinstance(value, float):
+        return None if math.isfinite(value) else where
+    if isinstance(value, dict):
+        items = value.items()
+    elif isinstance(value, (list, tuple)):
+        items = enumerate(value)
+    else:
+        return None
+    for key, item in items:
+        found = _non_finite(item, f"{where}[{key!r}]" if where else repr(key))
+        if found is not None:
+            return found
+    return None
+
+
+def _refuse_non_finite(results: dict, design) -> None:
+    """A value that overflowed (inputs of extreme magnitude) is an input problem."""
+    for check in results.get("checks") or ():
+        for key in ("stress", "allowed", "ratio", "rating"):
+            value = check.get(key)
+            if isinstance(value, float) and not math.isfinite(value):
+                raise InputError(design.path, None, f"the {check.get('quantity')} of "
+                                 f"{check.get('ref')} ({check.get('part')}) came out as "
+                                 f"{value} at corner {check.get('corner')}: the design or "
+                                 "its part sheets hold values of extreme magnitude")
+    where = _non_finite(results)
+    if where is not None:
+        raise InputError(design.path, None, f"the computation gave a non-finite value "
+                         f"({where}): the design or its part sheets hold values of extreme "
+                         "magnitude")
 
 
 def _summary_line(results) -> str:
@@ -122,19 +189,46 @@ def cmd_verify(args) -> int:
     return verify_design(args.design, args.parts, args.policy, keep=args.keep)
 
 
+def describe(exc: InputError) -> str:
+    """The message of an InputError, with the line of its key added where the file is
+    TOML and the key can be found in it: "<path>, line N, key 'k': message"."""
+    line = exc.line
+    if line is None and exc.key and exc.path:
+        from .tomlio import locate
+        try:
+            line = locate(exc.path, exc.key)
+        except Exception:  # a message helper must never fail
+            line = None
+    if line is None or line == exc.line:
+        return str(exc)
+    return str(InputError(exc.path, exc.key, exc.detail, line=line))
+
+
+def _one_line(text: str) -> str:
+    """``text`` with every non-printable character escaped ("\\n", "\\x1b"): a message
+    is one line and cannot carry terminal control sequences from an input file."""
+    return "".join(ch if ch.isprintable() else repr(ch)[1:-1] for ch in text)
+
+
 def main(argv=None) -> int:
     args = _parser().parse_args(argv)
     handlers = {"check": cmd_check, "demo": cmd_demo, "verify": cmd_verify}
     try:
         return handlers[args.command](args)
     except InputError as exc:
-        print(f"stresscheck: error: {exc}", file=sys.stderr)
+        print(f"stresscheck: error: {_one_line(describe(exc))}", file=sys.stderr)
         return 2
     except SimulationError as exc:
-        print(f"stresscheck: simulation error: {exc}", file=sys.stderr)
+        print(f"stresscheck: simulation error: {_one_line(str(exc))}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
+        print("stresscheck: interrupted", file=sys.stderr)
         return 130
+    except Exception as exc:  # last resort: a bug, but never a traceback for a user
+        text = _one_line(" ".join(str(exc).split()))[:500]
+        print(f"stresscheck: internal error: {type(exc).__name__}: {text} (please report)",
+              file=sys.stderr)
+        return 3
 
 
 if __name__ == "__main__":

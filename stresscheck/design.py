@@ -64,7 +64,8 @@ OPERATING_KEYS = ("input_voltage", "input_surge", "output_voltage", "output_curr
                   "current_limit", "ambient_temperature")
 COMPONENT_KEYS = ("ref", "refs", "role", "part", "r_th_ca", "r_th_ja", "parallel", "note")
 MAX_NAME = 200  # converter.name: one line in report headers and on the terminal
-# A designator: up to 40 characters, no blanks or control characters ("Q1", "C10A", "T1.2").
+# A designator: up to 40 printable characters, no blanks, control or format characters
+# (no bidirectional overrides or zero-width marks): "Q1", "C10A", "T1.2".
 DESIGNATOR = re.compile(r"[^\s\x00-\x1f\x7f-\x9f]{1,40}")
 MAX_PARALLEL = 1000
 
@@ -92,7 +93,7 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
     check_keys(doc, ("schema", "converter", "operating", "components"), path)
     version = require_str(doc, "schema", path)
     if version != schema.DESIGN_SCHEMA:
-        raise InputError(path, "schema", f"unknown schema version '{version}'; "
+        raise InputError(path, "schema", f"unknown schema version {shorten(version)}; "
                          f"expected '{schema.DESIGN_SCHEMA}'")
     conv = require_table(doc, "converter", path)
     check_keys(conv, CONVERTER_KEYS, path, "converter.")
@@ -216,7 +217,7 @@ def _load_components(doc, path, library) -> list[Component]:
             raise InputError(path, rkey, "expected a non-empty list of designators such as "
                              "[\"Q1\", \"Q2\"]")
         for ref in refs:
-            if not DESIGNATOR.fullmatch(ref):
+            if not DESIGNATOR.fullmatch(ref) or not ref.isprintable():
                 raise InputError(path, rkey, f"invalid designator {shorten(ref)}: 1 to 40 "
                                  "characters, no blanks or control characters")
             if ref in seen_refs:

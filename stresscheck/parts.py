@@ -65,7 +65,7 @@ def load_part(path: str | Path) -> Part:
                      "electrical", "thermal", "notes", "source"), path)
     version = require_str(doc, "schema", path)
     if version != schema.PART_SCHEMA:
-        raise InputError(path, "schema", f"unknown schema version '{version}'; "
+        raise InputError(path, "schema", f"unknown schema version {shorten(version)}; "
                          f"expected '{schema.PART_SCHEMA}'")
     part_id = require_str(doc, "id", path)
     if not valid_part_id(part_id):
@@ -73,7 +73,7 @@ def load_part(path: str | Path) -> Part:
                          "only (no path separators), at most 80 characters")
     if part_id != path.stem:
         raise InputError(path, "id", f"id '{part_id}' must equal the file name stem "
-                         f"'{path.stem}'")
+                         f"{shorten(path.stem)}")
     kind = require_str(doc, "kind", path, choices=schema.KINDS)
     technology = require_str(doc, "technology", path, choices=schema.TECHNOLOGIES[kind])
     description = require_str(doc, "description", path, optional=True) or ""

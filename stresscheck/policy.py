@@ -16,7 +16,8 @@ from pathlib import Path
 
 from . import schema
 from .errors import InputError
-from .tomlio import check_keys, read_toml, require_str, suggest
+from .tomlio import (check_keys, optional_text, read_toml, require_str, shorten, suggest,
+                     type_name)
 from .units import parse_quantity
 
 RULE_KEYS = ("id", "kind", "technology", "quantity", "rating", "factor", "margin", "limit",
@@ -84,13 +85,18 @@ def builtin_names() -> list[str]:
 
 def load_policy(name_or_file: str | None) -> Policy:
     """A built-in policy by name, or a policy file by path (default: commercial)."""
-    name_or_file = name_or_file or "commercial"
+    if name_or_file is None:
+        name_or_file = "commercial"
+    name_or_file = str(name_or_file)
+    if not name_or_file.strip():
+        raise InputError("--policy", None, "empty policy name; give a built-in policy ("
+                         + ", ".join(builtin_names()) + ") or a policy file")
     path = Path(name_or_file)
     if not name_or_file.endswith(".toml") and not path.exists():
         names = builtin_names()
         if name_or_file not in names:
-            raise InputError(name_or_file, None, "no such policy file or built-in policy"
-                             + suggest(name_or_file, names))
+            raise InputError(shorten(name_or_file).strip("'"), None, "no such policy file "
+                             "or built-in policy" + suggest(name_or_file, names))
         path = Path(str(resources.files("stresscheck.policies") / f"{name_or_file}.toml"))
     return _read_policy(path)
 
@@ -100,23 +106,37 @@ def _read_policy(path: Path) -> Policy:
     check_keys(doc, ("schema", "name", "marginal_above", "rules", "description"), path)
     version = require_str(doc, "schema", path)
     if version != schema.POLICY_SCHEMA:
-        raise InputError(path, "schema", f"unknown schema version '{version}'; "
+        raise InputError(path, "schema", f"unknown schema version {shorten(version)}; "
                          f"expected '{schema.POLICY_SCHEMA}'")
     name = require_str(doc, "name", path)
+    if not name.strip() or len(name) > 100 or not name.isprintable():
+        raise InputError(path, "name", "expected one line of printable text, 1 to 100 "
+                         "characters")
+    optional_text(doc, "description", path)
     marginal = doc.get("marginal_above", 0.9)
     if isinstance(marginal, bool) or not isinstance(marginal, (int, float)):
-        raise InputError(path, "marginal_above", "expected a number such as 0.9")
+        raise InputError(path, "marginal_above", f"expected a number such as 0.9, got "
+                         f"{type_name(marginal)}")
     marginal = float(marginal)
     if not 0 < marginal <= 1:
         raise InputError(path, "marginal_above", "must lie in (0, 1]")
-    raw_rules = doc.get("rules", [])
+    if "rules" not in doc:
+        raise InputError(path, "rules", "a policy needs at least one [[rules]] entry; "
+                         "without rules every check would only be information")
+    raw_rules = doc["rules"]
     if not isinstance(raw_rules, list) or not all(isinstance(r, dict) for r in raw_rules):
         raise InputError(path, "rules", "must be an array of tables [[rules]]")
+    if not raw_rules:
+        raise InputError(path, "rules", "a policy needs at least one [[rules]] entry")
     rules = [_read_rule(r, i, path) for i, r in enumerate(raw_rules)]
-    ids = [r.id for r in rules]
-    for rule_id in ids:
-        if ids.count(rule_id) > 1:
-            raise InputError(path, "rules", f"rule id '{rule_id}' is used twice")
+    first: dict[str, int] = {}
+    for i, rule in enumerate(rules):
+        if rule.id in first:
+            raise InputError(path, f"rules[{i}].id", f"rule id '{rule.id}' is used twice "
+                             f"(also by rules[{first[rule.id]}]); ids default to "
+                             "<kind>-<quantity>, so give each rule on the same quantity "
+                             "its own id")
+        first[rule.id] = i
     digest = hashlib.sha256(path.read_bytes()).hexdigest()
     return Policy(name, marginal, rules, path, digest)
 
@@ -133,6 +153,7 @@ def _read_rule(raw: dict, i: int, path) -> Rule:
     source = require_str(raw, "source", path, f"{key}.")
     if not source.strip():
         raise InputError(path, f"{key}.source", "every rule must say where it comes from")
+    optional_text(raw, "note", path, f"{key}.")
     ratings = schema.PART_KEYS[kind]["ratings"]
     rating = require_str(raw, "rating", path, f"{key}.", optional=True, choices=ratings)
     tech = _str_list(raw, "technology", path, key, schema.TECHNOLOGIES[kind])
@@ -140,7 +161,8 @@ def _read_rule(raw: dict, i: int, path) -> Rule:
     factor = raw.get("factor")
     if factor is not None:
         if isinstance(factor, bool) or not isinstance(factor, (int, float)):
-            raise InputError(path, f"{key}.factor", "expected a number such as 0.8")
+            raise InputError(path, f"{key}.factor", f"expected a number such as 0.8, got "
+                             f"{type_name(factor)}")
         factor = float(factor)
         if not 0 < factor <= 1.5:
             raise InputError(path, f"{key}.factor", "must lie in (0, 1.5]")
@@ -154,6 +176,13 @@ def _read_rule(raw: dict, i: int, path) -> Rule:
     limit = raw.get("limit")
     if limit is not None:
         limit = parse_quantity(limit, qdim, path, f"{key}.limit")
+        if qdim != "temperature" and limit <= 0:
+            raise InputError(path, f"{key}.limit", "must be greater than zero (a stress "
+                             "magnitude)")
+    if rating is None and (factor is not None or margin is not None):
+        which = "factor" if factor is not None else "margin"
+        raise InputError(path, f"{key}.{which}", f"{which} applies to a rating, but the "
+                         "rule names none; add rating = \"...\" or use only limit")
     if rating is None and limit is None:
         raise InputError(path, f"{key}.rating", "a rule needs a rating (with factor or "
                          "margin) or a fixed limit")
@@ -167,8 +196,10 @@ def _read_rule(raw: dict, i: int, path) -> Rule:
                              f"{rdim.replace('_', ' ')}, but quantity '{quantity}' is a "
                              f"{qdim.replace('_', ' ')}")
     rule_id = raw.get("id", f"{kind}-{quantity}")
-    if not isinstance(rule_id, str) or not rule_id:
-        raise InputError(path, f"{key}.id", "expected a non-empty string")
+    if not isinstance(rule_id, str) or not rule_id or len(rule_id) > 100 \
+            or not rule_id.isprintable():
+        raise InputError(path, f"{key}.id", "expected one line of printable text, 1 to 100 "
+                         "characters")
     return Rule(rule_id, kind, quantity, source, rating, factor, margin, limit, tech, kinds)
 
 
@@ -181,7 +212,8 @@ def _str_list(raw, name, path, key, choices):
         raise InputError(path, f"{key}.{name}", "expected a name or a list of names")
     for v in values:
         if v not in choices:
-            raise InputError(path, f"{key}.{name}", f"unknown value '{v}'" + suggest(v, choices))
+            raise InputError(path, f"{key}.{name}", f"unknown value {shorten(v)}"
+                             + suggest(v, choices))
     return tuple(values)
 
 

@@ -82,8 +82,10 @@ def _syntax_error(path: Path, text: str, msg: str) -> InputError:
     elif _END.search(msg):
         detail = _END.sub("", msg).strip() + " at the end of the file"
         line = max(text.count("\n") + (0 if text.endswith("\n") else 1), 1)
-    if "overwrite" in msg or "redefine" in msg.lower():
-        dup = KeyLines(text).duplicate
+    if "Unterminated string" in msg or "character '\\n'" in msg:
+        detail = detail.strip() + "; is a string not closed on its line?"
+    if any(word in msg.lower() for word in ("overwrite", "redefine", "declare")):
+        dup = KeyLines(text).duplicate  # the parser names no position: find it here
         if dup is not None:
             key, first, second = dup
             return InputError(path, key, f"TOML syntax error: key defined twice (first on "

@@ -68,6 +68,12 @@ def _is_report_xlsx(path: Path) -> bool:
 _RECOGNISERS = {"html": _is_report_html, "xlsx": _is_report_xlsx, "json": _is_results_json}
 
 
+def check_output(out_dir) -> dict[str, Path]:
+    """Refuse an output folder whose report files may not be replaced (see
+    `write_reports`), before any work is done; returns the target paths."""
+    return _check_targets(Path(out_dir))
+
+
 def _check_targets(out_dir: Path) -> dict[str, Path]:
     if out_dir.exists() and not out_dir.is_dir():
         raise InputError(out_dir, None, "the output path is a file, not a folder; "
@@ -77,6 +83,9 @@ def _check_targets(out_dir: Path) -> dict[str, Path]:
         if path.is_dir():
             raise InputError(out_dir, None, f"'{path.name}' is a folder; refusing to "
                              "replace it with a report")
+        if path.exists() and not path.is_file():
+            raise InputError(out_dir, None, f"'{path.name}' exists and is not a regular "
+                             "file; refusing to replace it with a report")
         if path.exists() and not _RECOGNISERS[key](path):
             raise InputError(out_dir, None, f"'{path.name}' exists and is not a "
                              "stresscheck report; refusing to overwrite it (move it away "
