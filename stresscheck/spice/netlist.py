@@ -79,16 +79,23 @@ class Layout:
     switches : list of (sense, drain, source, body) names per switch position
     rectifiers : list of (offset source, anode node, cathode node) per rectifier position
     freewheels, resets : the same for the 'freewheel' and 'reset' positions (forward)
+    mosfets : dict position key -> (sense, drain, source, body) for MOSFETs outside the
+        'switch' role (synchronous freewheel or rectifier)
     caps : dict position key -> (sense source, plus node, minus node, cap + node, cap - node)
     windings : dict winding label -> (sense source, resistance [ohm])
+    inductors : dict element name (also its IC key) -> inductance [H] of further
+        inductors (``lout2``: the second output inductor, position ('inductor', 1);
+        ``llk``: a series leakage inductance), for warm start and stored energy
     """
 
     switches: list[tuple[str, str, str, str]] = field(default_factory=list)
     rectifiers: list[tuple[str, str, str]] = field(default_factory=list)
     freewheels: list[tuple[str, str, str]] = field(default_factory=list)
     resets: list[tuple[str, str, str]] = field(default_factory=list)
+    mosfets: dict[tuple[str, int], tuple[str, str, str, str]] = field(default_factory=dict)
     caps: dict[tuple[str, int], tuple[str, str, str, str, str]] = field(default_factory=dict)
     windings: dict[str, tuple[str, float]] = field(default_factory=dict)
+    inductors: dict[str, float] = field(default_factory=dict)
     r_load: float = 1.0  # [ohm]
     r_damp: float = 1.0  # [ohm] choke damping resistor, between ``vsrc`` and ``bus``
     l_choke: float = 1.0  # [H]
@@ -378,3 +385,5 @@ SLOW_MODE_SHIFTS: dict = {}
 
 from . import netlist_forward  # noqa: E402,F401  (registers the forward family)
 from . import netlist_flyback  # noqa: E402,F401  (registers the flyback)
+from . import netlist_bridge_ext  # noqa: E402,F401  (phase shift, current doubler, sync)
+from . import netlist_buck_boost  # noqa: E402,F401  (registers buck and boost)

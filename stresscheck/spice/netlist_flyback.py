@@ -158,26 +158,32 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
 def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
     """State shifts that bring a run's final state to its averaged equilibrium [A, V].
 
-    Same contract as ``simulate._slow_mode_shift``: (shift of the filter states, shift of
-    the flux bias) by netlist IC key; a flyback has no flux bias apart from its
-    magnetizing current, which is a filter state here, so the second is empty.
+    Contract of ``netlist.SLOW_MODE_SHIFTS``: (shift of the filter states, shift of the
+    flux bias, both by netlist IC key, and the estimated steady-state mean output voltage
+    at this duty [V], which the duty search steers by). A flyback has no flux bias apart
+    from its magnetizing current, which is a filter state here, so the second is empty.
 
     One Newton step on the state-space averaged model (Erickson & Maksimović,
     Fundamentals of Power Electronics, 2nd ed., ch. 7, the buck-boost with a transformer
-    — from memory), x* = x − A⁻¹·ẋ, with the drift ẋ of the period means over the last
-    two periods and, with i the magnetizing current [A] and v the output capacitance
-    voltage [V]:
+    and an input filter, ch. 10 — from memory), x* = x − A⁻¹·ẋ, with the drift ẋ of the
+    period means over the last two periods. The states are taken together because the
+    converter draws constant power (a negative incremental input resistance) and so
+    couples the input filter to its own slow mode; shifting them one by one makes the
+    runs ring up. With i_ch the choke current, v_bus the input and v the output
+    capacitance voltage, i the magnetizing current:
 
-    - CCM (the simulated magnetizing current stays above ``CCM_SHARE`` of its peak):
-        L_m·di/dt = D·(V_in − R_a·i) − (1 − D)·(v + v_f0 + R_b·i/n)/n
+        L_ch·di_ch/dt = V_in − v_bus
+        C_in·dv_bus/dt = i_ch + (V_in − v_bus)/R_damp − I_draw
+    - CCM (the simulated magnetizing current stays above ``CCM_SHARE`` of its peak),
+      I_draw = D·i:
+        L_m·di/dt = D·(v_bus − R_a·i) − (1 − D)·(v + v_f0 + R_b·i/n)/n
         C·dv/dt   = (1 − D)·i/n − v/R
       R_a = R_on + R_p + ESR_in, R_b = r_d + R_s + ESR_out. A lightly loaded output
-      (quality factor of 20 or more) would otherwise ring for thousands of periods.
-    - DCM: the magnetizing current starts from zero every period; only v is a state,
-        C·dv/dt = I_s(v) − v/R,   dI_s/dv = −I_s/(v + v_f0)
-      (the energy per cycle is set by the duty, the secondary current by its voltage).
-    - Input filter: the bus settles at V_in, the choke at the mean primary current,
-      scaled with the output power change.
+      (quality factor of 20 or more) rings for thousands of periods otherwise.
+    - DCM: the magnetizing current starts from zero every period, so it is no state; the
+      energy per cycle goes with v_bus², I_draw = v_bus·D²·Ts/(2·L_m) with v_bus, and the
+      secondary's mean current I_s with v_bus²/(v + v_f0):
+        C·dv/dt = I_s − v/R,  dI_s/dv_bus = 2·I_s/v_bus,  dI_s/dv = −I_s/(v + v_f0)
     """
     ts = 1.0 / c.f_sw
     t1 = w.t[-1]
@@ -187,36 +193,46 @@ def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
         before = w.mean_between(x, t1 - 2 * ts, t1 - ts)
         return 1.5 * last - 0.5 * before, last - before
 
-    n = c.n_s / c.n_p
-    last = w.t >= t1 - ts
-    i_m = w["i(lm)"]
-    _, _, _, cp, cm = lay.caps[("output-capacitor", 0)]
-    v_c, dv = ends(w[f"v({cp})"] - w[f"v({cm})"])
-    cap, r_load = c.c_out.capacitance, lay.r_load
+    def period_mean(x):
+        return w.mean_between(x, t1 - ts, t1)
+
+    n, a = c.n_s / c.n_p, 1.0 - duty
     rect = c.rectifiers[0]
-    filters: dict[str, float] = {}
+    c_in, c_out, r_load = c.c_in.capacitance, c.c_out.capacitance, lay.r_load
+    _, _, _, bp, bm = lay.caps[("input-capacitor", 0)]
+    _, _, _, cp, cm = lay.caps[("output-capacitor", 0)]
+    v_bus, dv_bus = ends(w[f"v({bp})"] - w[f"v({bm})"])
+    v_c, dv_c = ends(w[f"v({cp})"] - w[f"v({cm})"])
+    di_ch = ends(w["i(lch)"])[1]
+    i_m = w["i(lm)"]
+    last = w.t >= t1 - ts
+    # rows: choke, bus, [magnetizing], output; columns the same states
+    rows = [[0.0, -1.0 / lay.l_choke], [1.0 / c_in, -1.0 / (lay.r_damp * c_in)]]
+    drift = [di_ch, dv_bus]
+    keys = ["lch", "cin"]
     if np.min(i_m[last]) > CCM_SHARE * np.max(i_m[last]):
-        _, di = ends(i_m)
-        a = 1.0 - duty
         r_a = c.switches[0].r_on + c.r_primary + c.c_in.esr
         r_b = rect.r_d + c.r_secondary + c.c_out.esr
-        jac = np.array([[-(duty * r_a + a * r_b / n ** 2) / lay.l_m, -a / (n * lay.l_m)],
-                        [a / (n * cap), -1.0 / (r_load * cap)]])
-        step = -np.linalg.solve(jac, np.array([di, dv]) / ts)
-        filters["lm"], filters["cout"] = float(step[0]), float(step[1])
+        rows = [r + [0.0, 0.0] for r in rows]
+        rows[1][2] = -duty / c_in
+        rows.append([0.0, duty / lay.l_m, -(duty * r_a + a * r_b / n ** 2) / lay.l_m,
+                     -a / (n * lay.l_m)])
+        rows.append([0.0, 0.0, a / (n * c_out), -1.0 / (r_load * c_out)])
+        drift += [ends(i_m)[1], dv_c]
+        keys += ["lm", "cout"]
     else:
         (src, _, _), = lay.rectifiers
-        i_s = w.mean_between(w[f"i({src})"], t1 - ts, t1)
-        slope = i_s / (v_c + rect.v_f0) + 1.0 / r_load
-        filters["cout"] = float(dv / ts * cap / slope)
-
-    v_bus = w["v(bus)"]
-    i_draw = w.mean_between(w["i(vp1)"], t1 - ts, t1)
-    power = ((v_c + filters["cout"]) / v_c) ** 2
-    filters["lch"] = (i_draw * power * w.mean_between(v_bus, t1 - ts, t1) / c.v_in
-                      - ends(w["i(lch)"])[0])
-    filters["cin"] = c.v_in - ends(v_bus)[0]
-    return filters, {}
+        i_s = period_mean(w[f"i({src})"])
+        i_draw = period_mean(w["i(vp1)"])
+        rows = [r + [0.0] for r in rows]
+        rows[1][1] -= i_draw / (v_bus * c_in)
+        rows.append([0.0, 2 * i_s / (v_bus * c_out),
+                     -(i_s / (v_c + rect.v_f0) + 1.0 / r_load) / c_out])
+        drift += [dv_c]
+        keys += ["cout"]
+    step = -np.linalg.solve(np.array(rows), np.array(drift) / ts)
+    filters = {k: float(x) for k, x in zip(keys, step)}
+    return filters, {}, v_c + filters["cout"]
 
 
 netlist.BUILDERS.update(dict.fromkeys(TOPOLOGIES, build))

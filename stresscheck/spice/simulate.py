@@ -126,8 +126,6 @@ def _slow_mode_shift(c: Circuit, lay: Layout, w: _Window,
       adding 2·D·di to the mean primary current; an offset dv of the midpoint changes
       the magnetizing current by -2·dv·D·Ts/L_m per period.
     """
-    if c.topology in SLOW_MODE_SHIFTS:  # families without an output L-C (flyback)
-        return SLOW_MODE_SHIFTS[c.topology](c, lay, w, duty)
     ts = 1.0 / c.f_sw
     t1 = w.t[-1]
 
@@ -200,13 +198,14 @@ def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float,
 
     pos: dict[tuple[str, int], dict[str, float]] = {}
     diag: dict[str, float] = {}
-    for k, (sense, drain, source, body) in enumerate(lay.switches):
+    mosfets = [(("switch", k), names) for k, names in enumerate(lay.switches)]
+    for (role, k), (sense, drain, source, body) in mosfets + list(lay.mosfets.items()):
         i, i_b = w[f"i({sense})"], w[f"i({body})"]
-        pos[("switch", k)] = {"v_peak": float(np.max(v(drain) - v(source))),
-                              "i_peak": float(np.max(np.abs(i))), "i_rms": w.rms(i)}
-        diag[f"switch-{k}.i_channel_rms"] = w.rms(i + i_b)  # body current flows source -> drain
-        diag[f"switch-{k}.i_body_avg"] = w.mean(i_b)
-        diag[f"switch-{k}.i_body_rms"] = w.rms(i_b)
+        pos[(role, k)] = {"v_peak": float(np.max(v(drain) - v(source))),
+                          "i_peak": float(np.max(np.abs(i))), "i_rms": w.rms(i)}
+        diag[f"{role}-{k}.i_channel_rms"] = w.rms(i + i_b)  # body current: source -> drain
+        diag[f"{role}-{k}.i_body_avg"] = w.mean(i_b)
+        diag[f"{role}-{k}.i_body_rms"] = w.rms(i_b)
     for role, diodes in (("rectifier", lay.rectifiers), ("freewheel", lay.freewheels),
                          ("reset", lay.resets)):
         for k, (src, anode, cathode) in enumerate(diodes):
@@ -219,16 +218,20 @@ def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float,
     i_l = w["i(lout)"] if "i(lout)" in vec else w["i(lm)"]
     if "i(lout)" in vec:
         pos[("inductor", 0)] = {"i_peak": float(np.max(np.abs(i_l))), "i_rms": w.rms(i_l)}
+    if "lout2" in lay.inductors:  # current doubler
+        i_l2 = w["i(lout2)"]
+        pos[("inductor", 1)] = {"i_peak": float(np.max(np.abs(i_l2))), "i_rms": w.rms(i_l2)}
     for key, (sense, plus, minus, _, _) in lay.caps.items():
         i = w[f"i({sense})"]
         pos[key] = {"i_ripple_rms": w.rms(i), "v_peak": float(np.max(v(plus) - v(minus)))}
         diag[f"{key[0]}-{key[1]}.i_mean"] = w.mean(i)
-    i_m = w["i(lm)"]
-    i_m_peak = float(np.max(np.abs(i_m)))
-    xf = {"i_m_peak": i_m_peak}
-    if c.core_area:
-        xf["b_peak"] = lay.l_m * i_m_peak / (c.n_p * c.core_area)
-    pos[("transformer", 0)] = xf
+    i_m = w["i(lm)"] if "i(lm)" in vec else np.zeros_like(w.t)  # no transformer: buck, boost
+    if "i(lm)" in vec:
+        i_m_peak = float(np.max(np.abs(i_m)))
+        xf = {"i_m_peak": i_m_peak}
+        if c.core_area:
+            xf["b_peak"] = lay.l_m * i_m_peak / (c.n_p * c.core_area)
+        pos[("transformer", 0)] = xf
     for label, (sense, _) in lay.windings.items():
         diag[f"{label}.i_rms"] = w.rms(w[f"i({sense})"])
 
@@ -255,18 +258,23 @@ def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float,
         ic_key, cap = caps[key]
         final[ic_key] = float(vc[-1])
         e_change += 0.5 * cap.capacitance * (vc[-1] ** 2 - vc[0] ** 2)
-    for name, ind in (("lout", c.l_out), ("lm", lay.l_m), ("lch", lay.l_choke)):
+    for name, ind in (("lout", c.l_out), ("lm", lay.l_m), ("lch", lay.l_choke),
+                      *lay.inductors.items()):
         if f"i({name})" not in vec:
             continue
         x = w[f"i({name})"]
         final[name] = float(x[-1])
         e_change += 0.5 * ind * (x[-1] ** 2 - x[0] ** 2)
     diag["p_stored"] = e_change / w.length
-    shift = _slow_mode_shift(c, lay, w, duty)
+    if c.topology in SLOW_MODE_SHIFTS:  # families without an output L-C (flyback)
+        *shift, v_steady = SLOW_MODE_SHIFTS[c.topology](c, lay, w, duty)
+    else:
+        shift, v_steady = _slow_mode_shift(c, lay, w, duty), means["v_out"]
     if c.topology == "half-bridge":
         diag["v_mid_mean"] = w.mean(v("mid"))
     return {"positions": pos, "means": means, "final": final, "diagnostics": diag,
-            "p_in": p_in, "p_out": p_out, "shift": shift[0], "flux_shift": shift[1]}
+            "p_in": p_in, "p_out": p_out, "shift": shift[0], "flux_shift": shift[1],
+            "v_steady": v_steady}
 
 
 def _duty_limit(c: Circuit) -> float:
@@ -327,8 +335,8 @@ def simulate(c: Circuit, *, keep_netlist: Path | None = None) -> SimResult:
     ValueError
         The circuit lacks positions its topology needs.
     """
-    if c.topology not in BUILDERS or c.topology in TOPOLOGIES:
-        check_supported(c)  # other families' builders check their circuit themselves
+    if c.topology not in BUILDERS:
+        check_supported(c)  # registered builders check their circuit themselves
     t0 = time.perf_counter()
     d_max = _duty_limit(c)
     duty = min(max(c.duty, 1e-3), d_max)
@@ -350,9 +358,14 @@ def simulate(c: Circuit, *, keep_netlist: Path | None = None) -> SimResult:
             ref = None
             ic = {k: x + m["shift"].get(k, 0.0) + m["flux_shift"].get(k, 0.0)
                   for k, x in m["final"].items()}
+            # The search steers by the steady state of this duty where the family's
+            # slow-mode shift estimates it (a flyback's right-half-plane zero makes the
+            # first response to a duty step go the wrong way); else by the window mean.
+            v_mean = m["v_steady"]
             if abs(v_mean / c.v_out - 1) < V_TOL:
-                choke = "real"
-                ic["lch"] = m["means"]["i_choke"]  # the real choke carries DC only
+                if choke == "short":  # once: later runs keep the shifted choke state
+                    choke = "real"
+                    ic["lch"] = m["means"]["i_choke"]  # the real choke carries DC only
                 continue
             points.append((duty, v_mean))
             new = _next_duty(points, c.v_out, d_max)

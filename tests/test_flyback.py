@@ -1,0 +1,332 @@
+"""Flyback stresses: textbook relations in the lossless limit, the CCM/DCM boundary,
+duty limit, refusals and the shared invariants.
+
+Source for the ideal relations: R. W. Erickson and D. Maksimović, *Fundamentals of Power
+Electronics*, 2nd ed., §6.3.4 (the flyback as a transformer-isolated buck-boost) and ch. 5
+(discontinuous conduction mode of the buck-boost: M = D/sqrt(K), K = 2L/(R·Ts), CCM
+where K > K_crit = (1 − D)²) — from memory. In our notation, n = N_s/N_p, L_m referred to
+the primary, R = V_o/I_o:
+  CCM:  V_o = V_in·n·D/(1 − D)
+  DCM:  V_o = V_in·D·sqrt(R/(2·L_m·fs))         (the buck-boost result with L = L_m
+        on the primary; the turns ratio drops out because the energy per cycle does not
+        depend on it)
+  boundary: K = 2·n²·L_m·fs/R = (1 − D)², i.e. I_o,crit = V_in·D·(1 − D)/(2·n·L_m·fs)
+  switch V_in + V_o/n, rectifier V_o + n·V_in; currents from the triangular or
+  trapezoidal magnetizing current (rms of a ramp, same book appendix A).
+
+The lossless limit: every resistance ~0 (R_DS(on) = 1 nΩ), v_f0 = 0, input and output
+banks of 1 F each (so their ripple is below 1e-5 of the voltages). Tolerance 1e-4
+relative: the relations are exact there, the margin covers the residual ripple only.
+"""
+
+import json
+import math
+
+import numpy as np
+import pytest
+
+from builders import write_case
+from builders_flyback import flyback_design, flyback_parts
+from invariants import (assert_charge_balance, assert_energy_balance,
+                        assert_one_rating_row_per_stress)
+from stresscheck.checks import run_checks
+from stresscheck.design import load_design
+from stresscheck.engine import run
+from stresscheck.errors import InputError, RegulationError
+from stresscheck.policy import load_policy
+
+REL = 1e-4
+N = 0.5  # N_s/N_p of the default test transformer (10/20)
+L_M = 100e-6  # [H]
+A_E = 60e-6  # [m^2]
+
+
+def lossless_eval(tmp_path, **design):
+    parts = flyback_parts(lossless=True, c_in="1 F", c_out="1 F")
+    path = write_case(tmp_path, flyback_design(**design), parts)
+    return run(load_design(path))
+
+
+def values(ev, ref, quantity):
+    (s,) = [s for s in ev.stresses if s.ref == ref and s.quantity == quantity]
+    return s.values
+
+
+def envelope(ev):
+    c = ev.corners
+    return (c["input_voltage"], c["output_voltage"], c["output_current"],
+            c["switching_frequency"])
+
+
+def test_both_regimes_are_present(tmp_path):
+    # 36-75 V to 12 V at 0.2-2 A with 100 uH: the CCM boundary lies between the loads.
+    ev = lossless_eval(tmp_path)
+    assert set(ev.result.regime) == {"CCM", "DCM"}
+
+
+def test_ccm_conversion_ratio(tmp_path):
+    ev = lossless_eval(tmp_path)
+    vin, vo, _, _ = envelope(ev)
+    ccm = ev.result.regime == "CCM"
+    d = ev.result.duty
+    np.testing.assert_allclose((vin * N * d / (1 - d))[ccm], vo[ccm], rtol=REL)
+
+
+def test_dcm_conversion_ratio(tmp_path):
+    ev = lossless_eval(tmp_path)
+    vin, vo, io, fs = envelope(ev)
+    dcm = ev.result.regime == "DCM"
+    r_load = vo / io
+    expected = vin * ev.result.duty * np.sqrt(r_load / (2 * L_M * fs))
+    np.testing.assert_allclose(expected[dcm], vo[dcm], rtol=REL)
+
+
+@pytest.mark.parametrize("share,regime", [(0.98, "DCM"), (1.02, "CCM")])
+def test_ccm_dcm_boundary(tmp_path, share, regime):
+    """Either side of I_o,crit = V_in·D·(1 − D)/(2·n·L_m·fs), D the CCM duty."""
+    vin, vo, fs = 48.0, 12.0, 150e3
+    d = vo / (vo + N * vin)
+    i_crit = vin * d * (1 - d) / (2 * N * L_M * fs)
+    io = f"{share * i_crit:.9g} A"
+    ev = lossless_eval(tmp_path, vin="48 V", io=io)
+    assert set(ev.result.regime) == {regime}
+    # K = 2·n²·L_m·fs/R against K_crit = (1 − D)², the same statement in the book's form
+    k = 2 * N ** 2 * L_M * fs / (vo / (share * i_crit))
+    assert (k > (1 - d) ** 2) == (regime == "CCM")
+
+
+def test_at_the_boundary_both_relations_hold(tmp_path):
+    # Exactly at the boundary the CCM and DCM conversion ratios give the same duty.
+    vin, vo, fs = 48.0, 12.0, 150e3
+    d = vo / (vo + N * vin)
+    i_crit = vin * d * (1 - d) / (2 * N * L_M * fs)
+    ev = lossless_eval(tmp_path, vin="48 V", io=f"{i_crit:.12g} A")
+    np.testing.assert_allclose(ev.result.duty, d, rtol=REL)
+    dcm_duty = vo / vin / math.sqrt(vo / i_crit / (2 * L_M * fs))
+    np.testing.assert_allclose(ev.result.duty, dcm_duty, rtol=REL)
+    np.testing.assert_allclose(ev.result.i_m_start, 0.0, atol=REL * i_crit)
+
+
+def test_voltage_stresses(tmp_path):
+    ev = lossless_eval(tmp_path)
+    vin, vo, _, _ = envelope(ev)
+    np.testing.assert_allclose(values(ev, "Q1", "v_peak"), vin + vo / N, rtol=REL)
+    np.testing.assert_allclose(values(ev, "D1", "v_reverse_peak"), vo + N * vin, rtol=REL)
+    np.testing.assert_allclose(values(ev, "C1", "v_peak"), vin, rtol=REL)
+    np.testing.assert_allclose(values(ev, "C2", "v_peak"), vo, rtol=REL)
+
+
+def test_ccm_currents(tmp_path):
+    ev = lossless_eval(tmp_path)
+    vin, vo, io, fs = envelope(ev)
+    ccm = ev.result.regime == "CCM"
+    d = vo / (vo + N * vin)
+    # magnetizing current: mean over the off-time carries the load, n·I_o/(1 − D),
+    # ripple V_in·D/(fs·L_m) (volt-seconds of the on-time)
+    mid = N * io / (1 - d)
+    ripple = vin * d / (fs * L_M)
+    i1, i2 = mid - ripple / 2, mid + ripple / 2
+    trap = (i1 ** 2 + i1 * i2 + i2 ** 2) / 3  # mean square of a ramp i1 -> i2
+    expect = {
+        ("Q1", "i_peak"): i2,
+        ("Q1", "i_rms"): np.sqrt(d * trap),
+        ("D1", "i_avg"): io,
+        ("D1", "i_peak"): i2 / N,
+        ("D1", "i_rms"): np.sqrt((1 - d) * trap) / N,
+        # the output bank carries i_s − I_o, the input bank I_dc − i_p (I_dc = D·mid)
+        ("C2", "i_ripple_rms"): np.sqrt((1 - d) * trap / N ** 2 - io ** 2) / 2,  # 2 caps
+        ("C1", "i_ripple_rms"): np.sqrt(d * trap - (d * mid) ** 2),
+        ("T1", "b_peak"): L_M * i2 / (20 * A_E),
+    }
+    for (ref, q), x in expect.items():
+        np.testing.assert_allclose(values(ev, ref, q)[ccm], x[ccm], rtol=REL, err_msg=ref + q)
+
+
+def test_dcm_currents(tmp_path):
+    ev = lossless_eval(tmp_path)
+    vin, vo, io, fs = envelope(ev)
+    dcm = ev.result.regime == "DCM"
+    d = ev.result.duty
+    i_pk = vin * d / (fs * L_M)  # from zero over the on-time
+    d2 = 2 * N * io / i_pk  # secondary triangle of height I_pk/n carries I_o
+    vin, vo, io, fs, d, i_pk, d2 = (x[dcm] for x in (vin, vo, io, fs, d, i_pk, d2))
+    # volt-second balance: V_in·D = (V_o/n)·D_2 (Faraday's law on the magnetizing inductance)
+    np.testing.assert_allclose(vin * d, vo / N * d2, rtol=REL)
+    expect = {
+        ("Q1", "i_peak"): i_pk,
+        ("Q1", "i_rms"): i_pk * np.sqrt(d / 3),
+        ("D1", "i_avg"): io,
+        ("D1", "i_peak"): i_pk / N,
+        ("D1", "i_rms"): i_pk / N * np.sqrt(d2 / 3),
+        ("C2", "i_ripple_rms"): np.sqrt((i_pk / N) ** 2 * d2 / 3 - io ** 2) / 2,
+        ("C1", "i_ripple_rms"): np.sqrt(i_pk ** 2 * d / 3 - (i_pk * d / 2) ** 2),
+        ("T1", "b_peak"): L_M * i_pk / (20 * A_E),
+    }
+    for (ref, q), x in expect.items():
+        np.testing.assert_allclose(values(ev, ref, q)[dcm], x, rtol=REL, err_msg=ref + q)
+    # the idle interval is the rest of the period
+    np.testing.assert_allclose(ev.result.grid.dt[dcm, -1] * fs, 1 - d - d2, rtol=REL)
+
+
+def test_energy_per_cycle_in_dcm(tmp_path):
+    """Lossless DCM: ½·L_m·I_pk²·fs = V_o·I_o (energy stored and delivered each cycle)."""
+    ev = lossless_eval(tmp_path)
+    vin, vo, io, fs = envelope(ev)
+    dcm = ev.result.regime == "DCM"
+    i_pk = ev.result.i_m_peak
+    np.testing.assert_allclose((0.5 * L_M * i_pk ** 2 * fs)[dcm], (vo * io)[dcm], rtol=REL)
+
+
+# --- with losses ---------------------------------------------------------------------------
+
+def lossy_eval(tmp_path, **design):
+    parts = flyback_parts(l_m_tol="10 %")
+    design.setdefault("surge", "90 V")
+    design.setdefault("ilim", "2.4 A")
+    return run(load_design(write_case(tmp_path, flyback_design(**design), parts)))
+
+
+def test_invariants_with_losses(tmp_path):
+    ev = lossy_eval(tmp_path)
+    assert set(ev.result.regime) == {"CCM", "DCM"}
+    assert_energy_balance(ev)
+    assert_charge_balance(ev)
+    checks = run_checks(ev, load_policy("commercial"))
+    assert_one_rating_row_per_stress(checks, ev)
+
+
+def test_drops_raise_the_duty_and_the_reflected_voltage(tmp_path):
+    lossless = lossless_eval(tmp_path / "a")
+    lossy = run(load_design(write_case(tmp_path / "b", flyback_design(), flyback_parts())))
+    assert np.all(lossy.result.duty > lossless.result.duty)
+    # the reflected voltage carries the rectifier drop, the secondary and ESR steps
+    assert np.all(values(lossy, "Q1", "v_peak") > values(lossless, "Q1", "v_peak") + 0.4 / N)
+
+
+def test_reflected_voltage_with_drops(tmp_path):
+    """Switch v_peak = V_in + (V_o + v_f0 + (r_d + R_s)·I_s0 + ESR·(I_s0 − I_o))/n, with
+    I_s0 the secondary current at turn-off (before any leakage spike); stiff banks so
+    that only the ESR step remains of their ripple."""
+    parts = flyback_parts(c_in="1 F", c_out="1 F", esr_in="0 ohm", esr_out="20 mohm")
+    ev = run(load_design(write_case(tmp_path, flyback_design(), parts)))
+    vin, vo, io, _ = envelope(ev)
+    i_s0 = values(ev, "D1", "i_peak")
+    esr = 0.02 / 2  # two capacitors
+    expected = vin + (vo + 0.4 + (0.015 + 0.010) * i_s0 + esr * (i_s0 - io)) / N
+    np.testing.assert_allclose(values(ev, "Q1", "v_peak"), expected, rtol=1e-6)
+
+
+def test_magnetizing_tolerance_spans_corners(tmp_path):
+    ev = lossy_eval(tmp_path)
+    lm = ev.corners["T1.magnetizing_inductance"]
+    np.testing.assert_allclose(sorted(set(lm)), [90e-6, 110e-6])
+    # the lower L_m reaches DCM at a higher load: at 36 V and the minimum load both are DCM,
+    # and the peak current is higher with the lower inductance
+    at = (ev.corners["input_voltage"] == 36) & (ev.corners["output_current"] == 0.2)
+    low, high = at & np.isclose(lm, 90e-6), at & np.isclose(lm, 110e-6)
+    assert low.any() and high.any()
+    assert values(ev, "Q1", "i_peak")[low].min() > values(ev, "Q1", "i_peak")[high].max()
+
+
+def test_regime_in_results(tmp_path):
+    from stresscheck.results import build_results
+    ev = lossy_eval(tmp_path)
+    policy = load_policy("commercial")
+    doc = build_results(ev, run_checks(ev, policy), policy)
+    json.dumps(doc)
+    assert {row["regime"] for row in doc["corners"]} == {"CCM", "DCM"}
+
+
+# --- duty limit ----------------------------------------------------------------------------
+
+def test_default_duty_limit_refuses_with_reason(tmp_path):
+    # 12 V from 20 V with n = 0.5 needs D = 12/(12 + 10) = 0.55 lossless; with n = 0.25
+    # it needs 12/(12 + 5) = 0.71 > 0.7 (the stated default).
+    parts = flyback_parts(n_s=5)
+    path = write_case(tmp_path, flyback_design(vin="20 V", io="2 A"), parts)
+    with pytest.raises(RegulationError, match=r"above the limit of 0\.700.*max_duty"):
+        run(load_design(path))
+
+
+def test_max_duty_replaces_the_default(tmp_path):
+    parts = flyback_parts(n_s=5)
+    ok = write_case(tmp_path / "ok", flyback_design(vin="20 V", io="2 A", max_duty="80 %"),
+                    parts)
+    ev = run(load_design(ok))
+    assert np.all(ev.result.duty > 0.7) and np.all(ev.result.duty < 0.8)
+    low = write_case(tmp_path / "low", flyback_design(vin="20 V", io="2 A", max_duty="60 %"),
+                     parts)
+    with pytest.raises(RegulationError, match=r"limit of 0\.600.*max_duty is 0\.6"):
+        run(load_design(low))
+
+
+def test_output_out_of_reach_is_refused_with_reason(tmp_path):
+    # 20 ohm in the primary: no duty ratio delivers 12 V 2 A from 36 V
+    parts = flyback_parts()
+    parts["t-xfmr"]["electrical"]["r_primary"] = "20 ohm"
+    path = write_case(tmp_path, flyback_design(io="2 A"), parts)
+    with pytest.raises(RegulationError, match="cannot be reached at any duty ratio"):
+        run(load_design(path))
+
+
+def test_no_core_area_leaves_flux_uncomputed(tmp_path):
+    path = write_case(tmp_path, flyback_design(), flyback_parts(core_area=None))
+    (b,) = [s for s in run(load_design(path)).stresses if s.quantity == "b_peak"]
+    assert np.isnan(b.values).all() and "core_area" in b.reason
+
+
+# --- refusals ------------------------------------------------------------------------------
+
+def test_synchronous_rectifier_is_refused(tmp_path):
+    parts = flyback_parts(rectifier_kind="mosfet")
+    path = write_case(tmp_path, flyback_design(), parts)
+    with pytest.raises(InputError, match="mosfet in the 'rectifier' position is not "
+                                         "modelled yet.*use a diode"):
+        load_design(path)
+
+
+@pytest.mark.parametrize("key,value,match", [
+    ("rectifier", "center-tap", "bridge family only"),
+    ("dead_time", "100 ns", "no complementary switches"),
+    ("modulation", "phase-shift", "pwm modulation only"),
+])
+def test_options_that_do_not_apply_are_refused(tmp_path, key, value, match):
+    path = write_case(tmp_path, flyback_design(**{key: value}), flyback_parts())
+    with pytest.raises(InputError, match=match):
+        load_design(path)
+
+
+def test_transformer_without_magnetizing_inductance_is_refused(tmp_path):
+    parts = flyback_parts()
+    del parts["t-xfmr"]["electrical"]["magnetizing_inductance"]
+    path = write_case(tmp_path, flyback_design(), parts)
+    with pytest.raises(InputError, match="stores its energy in the magnetizing"):
+        load_design(path)
+
+
+def test_output_inductor_role_is_refused(tmp_path):
+    from builders import bridge_parts
+    parts = {**flyback_parts(), "t-ind": bridge_parts()["t-ind"]}
+    design = flyback_design()
+    design["components"].append({"ref": "L1", "role": "inductor", "part": "t-ind"})
+    with pytest.raises(InputError, match="role 'inductor' is not part of a flyback"):
+        load_design(write_case(tmp_path, design, parts))
+
+
+# --- example designs -----------------------------------------------------------------------
+
+@pytest.mark.parametrize("example,regimes", [("flyback-48v-12v", {"CCM", "DCM"}),
+                                             ("flyback-375v-5v", {"DCM"})])
+def test_examples_check(tmp_path, example, regimes):
+    """The shipped examples run through `stresscheck check` with nothing failing, and
+    their corners show the regimes their comments promise."""
+    from pathlib import Path
+
+    from stresscheck import cli
+    design = Path(__file__).parent.parent / "examples" / example / "design.toml"
+    assert cli.main(["check", str(design), "--out", str(tmp_path)]) == 0
+    doc = json.loads((tmp_path / "results.json").read_text())
+    assert {row["regime"] for row in doc["corners"]} == regimes
+    ev = run(load_design(design))
+    assert_energy_balance(ev)
+    assert_charge_balance(ev)
