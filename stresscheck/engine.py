@@ -152,6 +152,13 @@ def build_stage(design, corners: CornerSet, r_mosfet: dict) -> Stage:
 
 
 def _check_model(design, corners, result: StageResult, stage: Stage):
+    """Refuse the design where the model does not hold: its own reasons first (they are
+    the more specific), then a duty beyond the limit."""
+    for mask, reason in result.invalid:
+        if mask.any():
+            i = int(np.flatnonzero(mask)[0])
+            raise RegulationError(design.path, "operating", f"at corner "
+                                  f"{corners.describe(i)}: {reason}")
     over = result.duty > stage.duty_limit
     if over.any():
         i = int(np.argmax(result.duty - stage.duty_limit))
@@ -159,11 +166,6 @@ def _check_model(design, corners, result: StageResult, stage: Stage):
                               f"{corners.describe(i)}: needs a duty ratio of "
                               f"{result.duty[i]:.3f} per switch, above the limit of "
                               f"{stage.duty_limit[i]:.3f} ({duty_limit_reason(design)})")
-    for mask, reason in result.invalid:
-        if mask.any():
-            i = int(np.flatnonzero(mask)[0])
-            raise RegulationError(design.path, "operating", f"at corner "
-                                  f"{corners.describe(i)}: {reason}")
 
 
 def mosfet_loss(result, key, r_on, devices, diode) -> np.ndarray:
@@ -241,6 +243,7 @@ def run(design, corners: CornerSet | None = None) -> Evaluation:
     result = evaluate(stage)
     _check_model(design, corners, result, stage)
 
+    notes.extend({"level": "assumption", "text": text} for text in result.notes)
     stresses, p_loss = _derive(design, corners, result, r_dev, t_j, runaway, notes)
     if any(r.any() for r in runaway.values()):
         notes.append({"level": "warning", "text": "thermal runaway: the electro-thermal "

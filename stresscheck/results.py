@@ -21,6 +21,7 @@ LOSSES_INCLUDED = (
 LOSSES_NOT_INCLUDED = (
     "switching (overlap), C_oss, gate-drive and reverse-recovery losses",
     "core losses of transformer and inductor",
+    "leakage-inductance energy (clamp or snubber loss)",
 )
 CONVENTIONS = (
     "ratio = stress / allowed (percent of allowed); marginal above the policy's "
@@ -32,8 +33,9 @@ CONVENTIONS = (
     "(current-limit) corners",
     "the input source supplies only DC: the input (or split) capacitors carry all the AC "
     "current (conservative for their ripple rating)",
-    "steady-state periodic operation in continuous conduction; no start-up, no leakage "
-    "spikes or ringing (switch and rectifier voltages are before any spike)",
+    "steady-state periodic operation, continuous or discontinuous conduction as found per "
+    "corner (the regime column); no start-up, no leakage spikes or ringing (switch and "
+    "rectifier voltages are before any spike)",
     "duty ratio = on-time of each switch / its switching period",
     "values in SI base units; temperatures in degC",
 )

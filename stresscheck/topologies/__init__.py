@@ -184,6 +184,8 @@ class StageResult:
     # corners where the model's assumptions fail: (mask, reason)
     invalid: list[tuple[np.ndarray, str]] = field(default_factory=list)
     regime: np.ndarray | None = None  # e.g. "CCM" per corner
+    # what the model leaves out or assumes, for the report (e.g. "v_peak before spikes")
+    notes: list[str] = field(default_factory=list)
 
 
 def evaluate(stage: Stage) -> StageResult:
