@@ -44,6 +44,13 @@ from .netlist import (ABSTOL, DIODE_IS, DIODE_N, R_OFF, STEPS_PER_PERIOD, SW_VH,
                       switching_period)
 
 TOPOLOGIES = ("forward", "two-switch-forward")
+#: Integration method. In the idle interval the magnetizing inductance sits in series with
+#: the off switch (R_OFF): a loop of time constant L_m/R_OFF ~ 1e-11 s, far below the
+#: step. The trapezoidal rule rings point to point on it (a few µV on the windings), and
+#: at the next turn-on after a DCM idle ngspice then crept on with tiny steps for
+#: minutes, without an error. Gear's second-order method damps that mode; the stresses
+#: agree with trapezoidal runs that do finish to 3e-4 (forward, 5 V 10 A and 0.5 A).
+METHOD = "gear"
 
 
 def check_supported(c: Circuit) -> None:
@@ -96,7 +103,7 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
     d.add(f"* stresscheck reference: {c.topology}, diode rectifier, v_in={c.v_in:g} V, "
           f"v_out={c.v_out:g} V, i_out={c.i_out:g} A, f_sw={c.f_sw:g} Hz, "
           f"duty={duty:.9f}, regime={c.regime}, choke={choke}")
-    d.add(f".options rshunt=1e9 reltol=1e-5 abstol={ABSTOL:g}")
+    d.add(f".options rshunt=1e9 reltol=1e-5 abstol={ABSTOL:g} method={METHOD}")
     d.add(f".model didl D(IS={DIODE_IS:g} N={DIODE_N:g})")
     for k, sw in enumerate(c.switches):
         d.add(f".model sw{k} SW(RON={sw.r_on:.9g} ROFF={R_OFF:g} VT={SW_VT:g} VH={SW_VH:g})")

@@ -27,6 +27,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import SimulationError
+from ..fsio import write_text_atomic
 from .circuit import Circuit, DiodeModel
 from .netlist import (BUILDERS, DUTY_LIMITS, SLOW_MODE_SHIFTS, T_EDGE, TOPOLOGIES, Layout,
                       analytic_ic, check_supported, diode_sweep_netlist)
@@ -385,8 +386,9 @@ def simulate(c: Circuit, *, keep_netlist: Path | None = None) -> SimResult:
     if keep_netlist is not None:
         keep = Path(keep_netlist)
         keep.parent.mkdir(parents=True, exist_ok=True)
-        keep.write_text(text)
-        keep.with_suffix(".json").write_text(json.dumps(result_json(c, res), indent=2) + "\n")
+        write_text_atomic(keep, text)
+        write_text_atomic(keep.with_suffix(".json"),
+                          json.dumps(result_json(c, res), indent=2) + "\n")
     return res
 
 
