@@ -196,7 +196,7 @@ def test_xlsx_layout():
     """
     results = make_results()
     wb = _load(render_xlsx(results, CONTEXT))
-    assert wb.sheetnames == ["Checks", "Findings", "Corners", "About"]
+    assert wb.sheetnames == ["Findings", "Checks", "Corners", "About"]  # findings open first
     checks = wb["Checks"]
     assert [c.value for c in checks[1]] == list(CHECK_COLUMNS)
     assert checks["A1"].font.bold

@@ -123,6 +123,10 @@ def _finish_table(ws, n_columns: int, n_rows: int, widths=None, max_width: int =
     ws.sheet_properties.pageSetUpPr.fitToPage = True
 
 
+NUMBER = "0.0###"  # up to four decimals: readable without hiding precision
+SCIENTIFIC = "0.00E+00"  # henries and farads
+
+
 def _checks_sheet(ws, checks) -> None:
     _header(ws, CHECK_COLUMNS)
     ratio_col = CHECK_COLUMNS.index("ratio") + 1
@@ -131,6 +135,8 @@ def _checks_sheet(ws, checks) -> None:
         for c, value in enumerate(_check_row(check), start=1):
             put(ws, r, c, value)
         ws.cell(row=r, column=ratio_col).number_format = "0.0%"
+        for name in ("stress", "allowed", "rating"):
+            ws.cell(row=r, column=CHECK_COLUMNS.index(name) + 1).number_format = NUMBER
         ws.cell(row=r, column=status_col).fill = _fill(check.get("status"))
         ws.cell(row=r, column=ratio_col).fill = _fill(check.get("status"))
     _finish_table(ws, len(CHECK_COLUMNS), len(checks) + 1)
@@ -146,6 +152,8 @@ def _corners_sheet(ws, results: dict) -> None:
     for r, corner in enumerate(corners, start=2):
         for c, key in enumerate(columns, start=1):
             put(ws, r, c, corner.get(key))
+            tiny = units.get(key) in ("H", "F")
+            ws.cell(row=r, column=c).number_format = SCIENTIFIC if tiny else NUMBER
     _finish_table(ws, len(columns), len(corners) + 1, max_width=30)
 
 
@@ -299,9 +307,10 @@ def render_xlsx(results: dict, context: dict) -> bytes:
     context = context or {}
     checks = list(results.get("checks") or ())
     wb = Workbook()
-    _checks_sheet(wb.active, checks)
-    wb.active.title = "Checks"
-    _checks_sheet(wb.create_sheet("Findings"), sort_findings(checks))
+    # findings first: what a reviewer must act on opens on top
+    _checks_sheet(wb.active, sort_findings(checks))
+    wb.active.title = "Findings"
+    _checks_sheet(wb.create_sheet("Checks"), checks)
     _corners_sheet(wb.create_sheet("Corners"), results)
     _about_sheet(wb.create_sheet("About"), results, context)
 
