@@ -134,11 +134,14 @@ def _check_consistency(part: Part) -> None:
 
 def shipped_library() -> Path:
     """Folder of the part library shipped inside the package (``parts/`` of the source
-    tree, installed as ``stresscheck.parts``)."""
+    tree, installed as the data package ``stresscheck.part_library``)."""
     try:
-        return Path(str(resources.files("stresscheck.parts")))
+        return Path(str(resources.files("stresscheck.part_library")))
     except (ModuleNotFoundError, TypeError):  # running from a source checkout
-        return Path(__file__).resolve().parent.parent / "parts"
+        source_tree = Path(__file__).resolve().parent.parent / "parts"
+        if source_tree.is_dir():
+            return source_tree
+        raise
 
 
 class PartLibrary:
