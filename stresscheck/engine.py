@@ -152,13 +152,9 @@ def build_stage(design, corners: CornerSet, r_mosfet: dict) -> Stage:
 
 
 def _check_model(design, corners, result: StageResult, stage: Stage):
-    """Refuse the design where the model does not hold: its own reasons first (they are
-    the more specific), then a duty beyond the limit."""
-    for mask, reason in result.invalid:
-        if mask.any():
-            i = int(np.flatnonzero(mask)[0])
-            raise RegulationError(design.path, "operating", f"at corner "
-                                  f"{corners.describe(i)}: {reason}")
+    """Refuse the design where the model does not hold: first a duty beyond the limit
+    (at such a corner nothing else the model says is meaningful), then the model's own
+    reasons (a model that cannot reach the output at all reports at the limit)."""
     over = result.duty > stage.duty_limit
     if over.any():
         i = int(np.argmax(result.duty - stage.duty_limit))
@@ -166,6 +162,11 @@ def _check_model(design, corners, result: StageResult, stage: Stage):
                               f"{corners.describe(i)}: needs a duty ratio of "
                               f"{result.duty[i]:.3f} per switch, above the limit of "
                               f"{stage.duty_limit[i]:.3f} ({duty_limit_reason(design)})")
+    for mask, reason in result.invalid:
+        if mask.any():
+            i = int(np.flatnonzero(mask)[0])
+            raise RegulationError(design.path, "operating", f"at corner "
+                                  f"{corners.describe(i)}: {reason}")
 
 
 def mosfet_loss(result, key, r_on, devices, diode) -> np.ndarray:

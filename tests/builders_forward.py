@@ -1,0 +1,86 @@
+"""Test helpers for the forward family: part sheets and design files in a tmp folder.
+
+Test fixtures, not a parts library: values chosen to make a relation easy to check.
+"""
+
+from __future__ import annotations
+
+from builders import LOSSLESS, part
+
+FORWARD_TOPOLOGIES = ("forward", "two-switch-forward")
+
+
+def forward_parts(*, lossless=False, two_switch=False, n_p=8, n_s=3, n_r=6, l_m="150 uH",
+                  l_out="10 uH", c_out="1000 uF", c_in="100 uF", esr_out="5 mohm",
+                  esr_in="5 mohm", r_reset="20 mohm", v_fet="400 V", core_area="60 mm^2"):
+    """Parts for a forward-family test design {id: sheet}.
+
+    ``two_switch``: the transformer has no reset winding.
+    """
+    e = LOSSLESS if lossless else {}
+    xfmr = {"primary_turns": n_p, "secondary_turns": n_s,
+            "magnetizing_inductance": l_m, "core_area": core_area,
+            "r_primary": e.get("r_primary", "20 mohm"),
+            "r_secondary": e.get("r_secondary", "3 mohm")}
+    if not two_switch:
+        xfmr["reset_turns"] = n_r
+        xfmr["r_reset"] = "0 ohm" if lossless else r_reset
+    diode_e = {"v_f0": e.get("v_f0", "0.4 V"), "r_d": e.get("r_d", "10 mohm")}
+    return {
+        "t-fet": part("mosfet", "si", {"v_ds": v_fet, "i_d": "30 A", "i_dm": "120 A",
+                                       "t_j_max": "175 degC"},
+                      {"r_ds_on": e.get("r_ds_on", "30 mohm"), "r_ds_on_tc": "0.5 %/K"},
+                      {"r_th_jc": "1 K/W"}),
+        "t-rect": part("diode", "schottky", {"v_rrm": "100 V", "i_f_avg": "30 A",
+                                             "t_j_max": "175 degC"},
+                       diode_e, {"r_th_jc": "1 K/W"}),
+        "t-reset": part("diode", "ultrafast", {"v_rrm": "600 V", "i_f_avg": "2 A",
+                                               "t_j_max": "175 degC"},
+                        {"v_f0": e.get("v_f0", "0.8 V"), "r_d": e.get("r_d", "100 mohm")},
+                        {"r_th_jc": "5 K/W"}),
+        "t-xfmr": part("transformer", "ferrite", {"b_sat": "350 mT", "t_max": "130 degC"},
+                       xfmr, {"r_th": "15 K/W"}),
+        "t-ind": part("inductor", "powder", {"i_sat": "40 A", "i_rms": "30 A",
+                                             "t_max": "155 degC"},
+                      {"inductance": l_out, "dcr": e.get("dcr", "2 mohm")}, {"r_th": "10 K/W"}),
+        "t-cout": part("capacitor", "al-polymer", {"v_rated": "16 V", "i_ripple": "10 A",
+                                                   "t_max": "105 degC"},
+                       {"capacitance": c_out, "esr": e.get("esr", esr_out)}, {"r_th": "20 K/W"}),
+        "t-cin": part("capacitor", "ceramic-class2", {"v_rated": "200 V", "i_ripple": "20 A",
+                                                      "t_max": "125 degC"},
+                      {"capacitance": c_in, "esr": e.get("esr", esr_in)}, {"r_th": "20 K/W"}),
+    }
+
+
+def forward_design(topology="forward", *, vin=None, vo="5 V", io=None, fs="250 kHz",
+                   surge=None, ilim=None, ambient=None, name=None, extra=None):
+    """A forward-family design using the parts of :func:`forward_parts`."""
+    two = topology == "two-switch-forward"
+    doc = {
+        "schema": "stresscheck.design/1",
+        "converter": {"name": name or f"test {topology}", "topology": topology,
+                      "switching_frequency": fs},
+        "operating": {"input_voltage": vin or {"min": "36 V", "nom": "48 V", "max": "72 V"},
+                      "output_voltage": vo,
+                      "output_current": io or {"min": "6 A", "max": "10 A"},
+                      "ambient_temperature": ambient or {"min": "0 degC", "max": "50 degC"}},
+        "components": [
+            {"refs": ["Q1", "Q2"] if two else ["Q1"], "role": "switch", "part": "t-fet",
+             "r_th_ca": "5 K/W"},
+            {"ref": "T1", "role": "transformer", "part": "t-xfmr"},
+            {"ref": "D1", "role": "rectifier", "part": "t-rect", "r_th_ca": "5 K/W"},
+            {"ref": "D2", "role": "freewheel", "part": "t-rect", "r_th_ca": "5 K/W"},
+            {"refs": ["D3", "D4"] if two else ["D3"], "role": "reset", "part": "t-reset",
+             "r_th_ca": "20 K/W"},
+            {"ref": "L1", "role": "inductor", "part": "t-ind"},
+            {"refs": ["C1"], "role": "output-capacitor", "part": "t-cout"},
+            {"refs": ["C2"], "role": "input-capacitor", "part": "t-cin"},
+        ],
+    }
+    if surge:
+        doc["operating"]["input_surge"] = surge
+    if ilim:
+        doc["operating"]["current_limit"] = ilim
+    for section, values in (extra or {}).items():
+        doc[section].update(values)
+    return doc
