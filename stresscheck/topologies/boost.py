@@ -1,0 +1,96 @@
+"""Boost converter: low-side switch, boost diode or synchronous rectifier MOSFET, in
+continuous and discontinuous conduction.
+
+Positions: ``switch`` (1, low side, MOSFET), ``rectifier`` (1: the boost diode, or a
+MOSFET = synchronous rectifier, forced continuous), ``inductor`` (1), ``input-capacitor``
+and ``output-capacitor`` banks. The periodic steady state is solved by the shared
+two-switch cell (``switching_cell``), with the switch node v_sw and the inductor current
+i_L (input -> switch node).
+
+Lossless forms (Erickson & Maksimović, Fundamentals of Power Electronics, 2nd ed., §2.3
+for CCM, §5.3 and Table 5.2 for DCM — from memory), to which the model reduces in the
+lossless limit (the tests check them):
+* CCM conversion ratio V_o = V_in/(1 − D); mean inductor current I_o/(1 − D)
+* ripple ΔI_pp = V_in·D·Ts/L                                                          [A]
+* switch and rectifier both block V_o; the rectifier carries I_o on average
+* output-capacitor ripple ΔV_pp = I_o·D·Ts/C (the capacitor alone feeds the load in the
+  on-interval, §2.3)                                                                  [V]
+* DCM (diode) M = V_o/V_in = (1 + sqrt(1 + 4D²/K))/2, K = 2L/(R·Ts), R = V_o/I_o; the
+  CCM/DCM boundary is K = D·(1 − D)² (§5.1).
+With drops (same book, ch. 3, the boost example with conduction losses): v_sw = R_on·i
+in the on-interval, V_out + v_f0 + r_d·i while the diode (or the rectifier's body
+diode, in the dead times) conducts, V_out + R_on,SR·i for the synchronous channel,
+−(v_f0 + r_d·|i|) when a negative current (light load, forced continuous) flows through
+the low side's body diode after the rectifier turns off, and the DCR drop of the
+inductor; all at the mean current of each interval.
+
+Dead time (synchronous): after the low side turns off, the rectifier's body diode
+carries the inductor current, so the low side blocks V_out plus that diode drop; after
+the rectifier turns off, a positive current stays in its body diode, a negative one
+flows through the low side's body diode and the rectifier blocks V_out plus that drop.
+
+The rectifier's channel current is counted drain (output) -> source (switch node), so
+it is −i_L.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..errors import InputError
+from . import Layout, RoleSpec, Stage, StageResult
+from . import switching_cell as cell
+from .buck import check_options, synchronous
+
+# Largest duty ratio of a diode boost when the design gives no max_duty [1]: the
+# controller's minimum off-time (common practice for PWM controllers, typically 5 % of
+# the period or more), which also keeps the converter clear of the peak of its lossy
+# conversion ratio, where the output no longer rises with the duty ratio.
+DIODE_MAX_DUTY = 0.95
+
+
+def layout(design) -> Layout:
+    """Roles of a boost design; refuses the options it does not take and a surge that
+    reaches the output voltage."""
+    check_options(design, "boost")  # output above input: design.check_plausibility
+    path = design.path
+    if design.input_surge is not None and design.input_surge >= design.output_voltage.min:
+        raise InputError(path, "operating.input_surge", f"a surge of "
+                         f"{design.input_surge:g} V reaches the output voltage "
+                         f"({design.output_voltage.min:g} V): it passes through the "
+                         "inductor and rectifier to the output, which this model does not "
+                         "cover; check that case separately or lower the surge")
+    return Layout("boost", None, {
+        "switch": RoleSpec(1, kinds=("mosfet",)),
+        "rectifier": RoleSpec(1, kinds=("diode", "mosfet")),
+        "inductor": RoleSpec(1),
+        "input-capacitor": RoleSpec(None),
+        "output-capacitor": RoleSpec(None),
+    })
+
+
+def duty_limit(design, fs):
+    """Largest duty ratio of the switch [1].
+
+    Synchronous: the period holds the on-time and two dead times (one at each
+    transition), D <= 1 − 2·t_d·fs. Diode: the controller's ``max_duty`` if given, else
+    DIODE_MAX_DUTY; the dead time does not apply (one controlled switch).
+    """
+    if synchronous(design, "rectifier"):
+        return 1.0 - 2 * design.dead_time * np.asarray(fs, dtype=float)
+    limit = design.max_duty if design.max_duty is not None else DIODE_MAX_DUTY
+    return np.full(np.shape(fs), limit)
+
+
+def duty_limit_reason(design) -> str:
+    if synchronous(design, "rectifier"):
+        return "the low-side on-time and the two dead times fill the period"
+    if design.max_duty is not None:
+        return "the controller's minimum off-time"
+    return (f"a diode boost needs a minimum off-time each period (assumed "
+            f"{100 * (1 - DIODE_MAX_DUTY):.0f} %; give max_duty to set it)")
+
+
+def evaluate(st: Stage) -> StageResult:
+    c = cell.cell_from_stage(st, "boost", "rectifier")
+    return cell.stage_result(c, cell.solve(c), "rectifier")
