@@ -38,8 +38,10 @@ from memory), extended here with conduction drops, magnetizing current and bus r
   I_L/2 ∓ I_m/(2n) (ampere-turn balance of the ideal transformer, i_p = 0); the
   rectifier node sits at −(R_s·I_L + v_A + v_B)/2 (center-tap) or −(v_A + v_B) (bridge).
   The duty follows in closed form (the balance is linear in D for a given t_b branch).
-* Current doubler (two inductors L1, L2 from the winding ends to the output, two
-  rectifiers from the winding ends to the output return): L1 charges only in ON1 with
+* Current doubler (one secondary winding of N_s turns, no center tap; two inductors
+  L1, L2 from its ends to the output, two rectifiers from its ends to the output
+  return; meaningful for the push-pull too, whose secondary sees the same ±n·V_in):
+  L1 charges only in ON1 with
   n·emf − R_s·I_1 − v_A(I_1 + I_2), and discharges through rectifier B for the rest of
   the period, so V_o = n·D·V_src in the lossless limit (D per switch), each inductor
   carries I_o/2 with a ripple at fs, the output capacitor their sum (ripple at 2·fs,
@@ -159,9 +161,9 @@ def duty_limit(design, fs):
 
 def duty_limit_reason(design) -> str:
     if design.modulation == "phase-shift":
-        text = ("the diagonal's applied interval (phase overlap) is at most half a period "
-                "less the dead time")
-        return text + (" (leakage inductance duty loss included)")
+        return ("the phase overlap of the two legs is at most half a period less the dead "
+                "time, and the current reversal through the leakage inductance takes its "
+                "share of it (duty loss)")
     text = "each switch conducts at most half a period"
     return text + (" less the dead time" if design.dead_time else "")
 

@@ -1,0 +1,399 @@
+"""ngspice transient netlists of the bridge-family extensions: phase-shift modulation
+(full bridge), the current-doubler rectifier and synchronous rectifiers.
+
+Models as in :mod:`stresscheck.spice.netlist` and the project's ngspice notes (``S``
+switches with an antiparallel body diode, ideal transformer from controlled sources plus
+one magnetizing inductance, straight-line diodes, L with DCR, C with ESR and a sense
+source, DC input behind a damped choke), with the same element names and
+:class:`~stresscheck.spice.netlist.Layout`, plus:
+
+======================  ==========================================================
+``llk``                 phase shift: the leakage (and series resonant) inductance,
+                        between the bridge node ``pa`` and the primary sense ``vp1``
+``lout2``               current doubler: the second output inductor, from the winding's
+                        undotted end ``sb`` (through its DCR) to ``out``; ``lout`` is
+                        the first, from the dot ``sa``
+``vr{k}``               synchronous rectifier ``k``: sense source in its drain lead
+                        (drain-source current); switch ``Sr{k}``, body diode ``vbr{k}``
+======================  ==========================================================
+
+Phase shift (switch order of the analytic model: Q0 leg A high, Q1 leg A low, Q2 leg B
+high, Q3 leg B low): every switch is gated for Ts/2 − t_d; the lagging leg B switches
+at 0 (Q2 -> Q3) and Ts/2 (Q3 -> Q2), the leading leg A at D·Ts (Q0 -> Q1) and
+Ts/2 + D·Ts (Q1 -> Q0), each switch turning on t_d after its complement turns off.
+
+Current doubler: rectifier 0 from ground to ``sb`` (conducts while the first half-cycle
+drives ``sa`` high, and in freewheel), rectifier 1 from ground to ``sa``.
+
+Synchronous rectifiers (center-tap, full-bridge or current-doubler positions; PWM): a
+rectifier of group A (conducting with the first half-cycle: center-tap and doubler 0,
+bridge 0 and 3) is gated off from t_b before the second half-cycle's on-interval until
+t_b after it, group B likewise around the first; t_b = min(t_d, (1/2 − D)·Ts/2). Its
+source is the diode's anode, its drain the cathode.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from . import netlist
+from .circuit import Circuit, DiodeModel, SwitchModel
+from .netlist import (ABSTOL, DIODE_IS, DIODE_N, I_REF_FRACTION, R_FLOAT, R_OFF,
+                      STEPS_PER_PERIOD, SW_VH, SW_VT, T_EDGE, Layout, _Deck, _gate,
+                      analytic_ic, choke_values, switching_period)
+
+TOPOLOGIES = netlist.TOPOLOGIES
+RECTIFIERS = ("center-tap", "full-bridge", "current-doubler")
+IC_KEYS = netlist.IC_KEYS + ("lout2", "llk")
+_PLAIN_BUILD = netlist.build  # the bridge family's own builder (plain circuits)
+#: Integration of the phase-shift decks: backward Euler (first-order Gear). At the end of
+#: each commutation a rectifier turns off and the leakage, magnetizing and (reflected)
+#: output inductances form an all-inductor cutset: the trapezoidal rule then rings from
+#: point to point (the rectifier voltage alternated 15.8 / 62.0 V around its 38.9 V) and
+#: second-order Gear overshoots one step (53 V); backward Euler is L-stable and exact
+#: for the piecewise-linear inductor currents of these circuits.
+PS_METHOD = " method=gear maxord=1"
+
+
+def _sync(c: Circuit) -> bool:
+    return any(isinstance(r, SwitchModel) for r in c.rectifiers)
+
+
+def handles(c: Circuit) -> bool:
+    """Whether ``c`` is a bridge circuit of this module (not of ``netlist.build``)."""
+    return c.topology in TOPOLOGIES and (getattr(c, "modulation", "pwm") == "phase-shift"
+                                         or c.rectifier == "current-doubler" or _sync(c))
+
+
+def check_supported(c: Circuit) -> None:
+    """Check that ``c`` is a circuit this module builds.
+
+    Raises
+    ------
+    NotImplementedError
+        Another topology; phase shift on a half-bridge or push-pull, or with a current
+        doubler or synchronous rectifiers.
+    ValueError
+        Position counts, inductors or capacitors that do not fit; phase shift without
+        leakage inductance; mixed diode and MOSFET rectifiers.
+    """
+    if c.topology not in TOPOLOGIES:
+        raise NotImplementedError(f"ngspice netlist for topology {c.topology!r} not "
+                                  f"available here; valid: {', '.join(TOPOLOGIES)}")
+    if c.rectifier not in RECTIFIERS:
+        raise NotImplementedError(f"ngspice netlist for rectifier {c.rectifier!r} not "
+                                  f"available; valid: {', '.join(RECTIFIERS)}")
+    sync = _sync(c)
+    if sync and not all(isinstance(r, SwitchModel) for r in c.rectifiers):
+        raise ValueError("rectifiers must be all diodes or all synchronous MOSFETs")
+    if c.modulation == "phase-shift":
+        if c.topology != "full-bridge":
+            raise NotImplementedError("phase-shift modulation needs a full bridge")
+        if c.rectifier == "current-doubler" or sync:
+            raise NotImplementedError("ngspice netlist for phase shift with a current "
+                                      "doubler or synchronous rectifiers not available")
+        if not c.l_leak > 0:
+            raise ValueError("phase-shift modulation needs l_leak > 0")
+    elif c.modulation != "pwm":
+        raise NotImplementedError(f"modulation {c.modulation!r} not available")
+    n_sw = {"full-bridge": 4, "half-bridge": 2, "push-pull": 2}[c.topology]
+    n_rect = {"center-tap": 2, "full-bridge": 4, "current-doubler": 2}[c.rectifier]
+    if len(c.switches) != n_sw or len(c.rectifiers) != n_rect:
+        raise ValueError(f"{c.topology}/{c.rectifier} needs {n_sw} switches and {n_rect} "
+                         f"rectifiers, got {len(c.switches)} and {len(c.rectifiers)}")
+    if c.rectifier == "current-doubler" and not c.l_out_2:
+        raise ValueError("a current doubler needs l_out_2")
+    if c.c_out is None:
+        raise ValueError("c_out is missing")
+    if c.topology == "half-bridge" and len(c.c_split) != 2:
+        raise ValueError("half-bridge needs c_split = [top, bottom]")
+    if c.topology != "half-bridge" and c.c_in is None:
+        raise ValueError(f"{c.topology} needs c_in")
+
+
+def body_window(c: Circuit, duty: float) -> float:
+    """Body-diode interval of a synchronous rectifier at each of its edges [s]."""
+    return min(c.dead_time, (0.5 - duty) / c.f_sw / 2)
+
+
+def warm_start(c: Circuit, duty: float) -> dict[str, float]:
+    """Initial conditions of a first run [A, V]: the bridge's, plus the second output
+    inductor (current doubler: at t = 0 it has fallen for (1/2 − D)·Ts from its peak,
+    V_o·(1 − D)·Ts/L2 above its valley) and the leakage current (phase shift: minus the
+    freewheeling primary current, n·i_L + i_m, of the previous half period)."""
+    ic = analytic_ic(c)
+    ts = switching_period(c)
+    if c.rectifier == "current-doubler":
+        ripple = c.v_out * (1 - duty) * ts / c.l_out_2
+        ic["lout2"] = c.i_out / 2 + ripple / 2 - c.v_out * (0.5 - duty) * ts / c.l_out_2
+    if c.modulation == "phase-shift":
+        ic["llk"] = -(c.n_s / c.n_p) * c.i_l_start + c.i_m_start
+    return ic
+
+
+def _pulse_off(deck: _Deck, name: str, t_off: float, off_time: float, period: float):
+    """Gate that is on at t = 0, off from ``t_off`` for ``off_time`` every period (same
+    edge convention as ``netlist._gate``: the switch changes 0.7 ns into each edge)."""
+    width = max(off_time - T_EDGE, T_EDGE)
+    deck.add(f"Vg{name} g{name} 0 PULSE(1 0 {t_off:.12g} {T_EDGE:g} {T_EDGE:g} "
+             f"{width:.12g} {period:.12g})")
+
+
+def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
+          ic: dict | None, choke: str) -> tuple[str, Layout]:
+    """Netlist text and its :class:`Layout` (contract of :func:`netlist.build`)."""
+    check_supported(c)
+    ts = switching_period(c)
+    ps = c.modulation == "phase-shift"
+    doubler = c.rectifier == "current-doubler"
+    sync = _sync(c)
+    ic = {**warm_start(c, duty), **(ic or {})}
+    lay = Layout()
+    d = _Deck()
+    d.add(f"* stresscheck reference: {c.topology} ({c.modulation}) / {c.rectifier} "
+          f"rectifier{' (synchronous)' if sync else ''}, v_in={c.v_in:g} V, "
+          f"v_out={c.v_out:g} V, i_out={c.i_out:g} A, f_sw={c.f_sw:g} Hz, "
+          f"duty={duty:.9f}, dead_time={c.dead_time:g} s, choke={choke}")
+    d.add(f".options rshunt=1e9 reltol=1e-5 abstol={ABSTOL:g}" + (PS_METHOD if ps else ""))
+    d.add(f".model didl D(IS={DIODE_IS:g} N={DIODE_N:g})")
+    for k, sw in enumerate(c.switches):
+        d.add(f".model sw{k} SW(RON={sw.r_on:.9g} ROFF={R_OFF:g} VT={SW_VT:g} VH={SW_VH:g})")
+    if sync:
+        for k, sw in enumerate(c.rectifiers):
+            d.add(f".model swr{k} SW(RON={sw.r_on:.9g} ROFF={R_OFF:g} VT={SW_VT:g} "
+                  f"VH={SW_VH:g})")
+
+    # Input: source -> choke || damping -> bus, and the input (or split) capacitors.
+    l_ch, r_damp = choke_values(c, choke)
+    lay.l_choke, lay.r_damp = l_ch, r_damp
+    d.add(f"Vin vsrc 0 DC {c.v_in:.12g}")
+    d.add(f"Lch vsrc bus {l_ch:.12g} IC={ic['lch']:.12g}")
+    d.add(f"Rdamp vsrc bus {r_damp:.12g}")
+    if c.topology == "half-bridge":
+        top, bot = c.c_split
+        lay.caps[("split-capacitor", 0)] = d.cap("ct", "bus", "mid", top.capacitance,
+                                                  top.esr, ic["ctop"])
+        lay.caps[("split-capacitor", 1)] = d.cap("cb", "mid", "0", bot.capacitance,
+                                                  bot.esr, ic["cbot"])
+    else:
+        lay.caps[("input-capacitor", 0)] = d.cap("ci", "bus", "0", c.c_in.capacitance,
+                                                  c.c_in.esr, ic["cin"])
+
+    # Gates and switches.
+    if ps:
+        t_d = c.dead_time
+        half_on = ts / 2 - t_d
+        _pulse_off(d, "q0", duty * ts, ts / 2 + t_d, ts)  # Q0 on at t = 0 until D·Ts
+        _gate(d, "q1", duty * ts + t_d, half_on, ts)
+        _gate(d, "q2", ts / 2 + t_d, half_on, ts)
+        _gate(d, "q3", t_d, half_on, ts)
+        legs = [("bus", "pa", "q0"), ("pa", "0", "q1"), ("bus", "pb", "q2"),
+                ("pb", "0", "q3")]
+    else:
+        # Gate 1 drives the first half-cycle from t = 0, gate 2 the second from Ts/2.
+        _gate(d, "1", 0.0, duty * ts, ts)
+        _gate(d, "2", ts / 2, duty * ts, ts)
+        legs = {"full-bridge": [("bus", "pa", "1"), ("pa", "0", "2"), ("bus", "pb", "2"),
+                                ("pb", "0", "1")],
+                "half-bridge": [("bus", "sw", "1"), ("sw", "0", "2")],
+                "push-pull": [("d1", "0", "1"), ("d2", "0", "2")]}[c.topology]
+    i_body = I_REF_FRACTION * c.i_out * c.n_s / c.n_p
+    for k, ((drain, source, gate), sw) in enumerate(zip(legs, c.switches)):
+        d.add(f"vq{k} {drain} q{k}d 0")
+        d.add(f"S{k} q{k}d {source} g{gate} 0 sw{k} OFF")
+        body = d.diode(f"b{k}", source, f"q{k}d", sw.body, i_body)
+        lay.switches.append((f"vq{k}", drain, source, body))
+
+    # Transformer: reference winding (dot p1, undot pu) with Lm; E/F for the others.
+    if c.topology == "full-bridge":
+        if ps:
+            d.add(f"Llk pa pl {c.l_leak:.12g} IC={ic['llk']:.12g}")
+            lay.inductors["llk"] = c.l_leak
+            d.add("vp1 pl p1r 0")
+        else:
+            d.add("vp1 pa p1r 0")
+        d.res("p1", "p1r", "p1", c.r_primary)
+        pu = "pb"
+    elif c.topology == "half-bridge":
+        d.add("vp1 sw p1r 0")
+        d.res("p1", "p1r", "p1", c.r_primary)
+        pu = "mid"
+    else:
+        d.add("vp1 bus p1r 0")
+        d.res("p1", "p1r", "p1", c.r_primary)
+        pu = "d1"
+        d.add("vp2 d2 p2d 0")
+        d.add("Ep2 p2d p2u p1 d1 1")
+        d.add("Fp2 p1 d1 vp2 -1")
+        d.res("p2", "p2u", "bus", c.r_primary)
+        lay.windings["primary-2"] = ("vp2", c.r_primary)
+    lay.windings["primary-1" if c.topology == "push-pull" else "primary"] = ("vp1", c.r_primary)
+    l_m = c.l_m if math.isfinite(c.l_m) and c.l_m > 0 else 1e3  # "no Lm" -> negligible
+    lay.l_m = l_m
+    d.add(f"Lm p1 {pu} {l_m:.12g} IC={ic['lm']:.12g}")
+    ratio = c.n_s / c.n_p
+
+    def winding(k: int, dot: str, undot: str) -> None:
+        d.add(f"vw{k} {dot} w{k}i 0")
+        d.res(f"w{k}", f"w{k}i", f"w{k}e", c.r_secondary)
+        d.add(f"Ew{k} w{k}e {undot} p1 {pu} {ratio:.12g}")
+        d.add(f"Fw{k} p1 {pu} vw{k} {-ratio:.12g}")
+        lay.windings[f"secondary-{k + 1}"] = (f"vw{k}", c.r_secondary)
+
+    # Rectifier positions (anode, cathode) and their group (A: first half-cycle).
+    if c.rectifier == "center-tap":
+        winding(0, "sa", "0")  # V(sa) = +n·Vp
+        winding(1, "0", "sb")  # V(sb) = -n·Vp
+        pins = [("sa", "rect"), ("sb", "rect")]
+        group_a = (0,)
+    elif c.rectifier == "full-bridge":
+        winding(0, "sa", "sb")
+        d.add(f"Rfloat sb 0 {R_FLOAT:g}")
+        pins = [("sa", "rect"), ("sb", "rect"), ("0", "sa"), ("0", "sb")]
+        group_a = (0, 3)
+    else:
+        winding(0, "sa", "sb")
+        pins = [("0", "sb"), ("0", "sa")]
+        group_a = (0,)
+    i_rect = I_REF_FRACTION * c.i_out
+    if sync:
+        t_b = body_window(c, duty)
+        # group A off around the second on-interval, group B around the first
+        _pulse_off(d, "ra", ts / 2 - t_b, duty * ts + 2 * t_b, ts)
+        _gate(d, "rb", duty * ts + t_b, ts - duty * ts - 2 * t_b, ts)
+    for k, ((anode, cathode), dm) in enumerate(zip(pins, c.rectifiers)):
+        if isinstance(dm, DiodeModel):
+            lay.rectifiers.append((d.diode(f"d{k}", anode, cathode, dm, i_rect), anode,
+                                   cathode))
+            continue
+        gate = "ra" if k in group_a else "rb"
+        d.add(f"vr{k} {cathode} r{k}d 0")
+        d.add(f"Sr{k} r{k}d {anode} g{gate} 0 swr{k} OFF")
+        body = d.diode(f"br{k}", anode, f"r{k}d", dm.body, c.i_out / 2)
+        lay.mosfets[("rectifier", k)] = (f"vr{k}", cathode, anode, body)
+
+    # Output filter and load.
+    if doubler:
+        d.res("dcr", "sa", "lo", c.dcr_out)
+        d.add(f"Lout lo out {c.l_out:.12g} IC={ic['lout']:.12g}")
+        d.res("dcr2", "sb", "lo2", c.dcr_out_2)
+        d.add(f"Lout2 lo2 out {c.l_out_2:.12g} IC={ic['lout2']:.12g}")
+        lay.inductors["lout2"] = c.l_out_2
+    else:
+        d.res("dcr", "rect", "lo", c.dcr_out)
+        d.add(f"Lout lo out {c.l_out:.12g} IC={ic['lout']:.12g}")
+    lay.caps[("output-capacitor", 0)] = d.cap("co", "out", "0", c.c_out.capacitance,
+                                               c.c_out.esr, ic["cout"])
+    lay.r_load = c.v_out / c.i_out
+    d.add(f"Rload out 0 {lay.r_load:.12g}")
+
+    t_start = max(t_stop - t_measure - ts / STEPS_PER_PERIOD, 0.0)
+    h = ts / STEPS_PER_PERIOD
+    d.add(f".tran {h:.12g} {t_stop:.12g} {t_start:.12g} {h:.12g} uic")
+    d.add(".end")
+    return "\n".join(d.lines) + "\n", lay
+
+
+def build_bridge(c: Circuit, duty: float, t_stop: float, t_measure: float,
+                 ic: dict | None, choke: str) -> tuple[str, Layout]:
+    """The bridge family's builder: this module's for its circuits (:func:`handles`),
+    :func:`netlist.build` for the others."""
+    if handles(c):
+        return build(c, duty, t_stop, t_measure, ic, choke)
+    return _PLAIN_BUILD(c, duty, t_stop, t_measure, ic, choke)
+
+
+class _DoublerView:
+    """A measurement window as the bridges' slow-mode shift sees a current doubler: the
+    two inductors as one (their sum) fed from the mean of the two winding ends."""
+
+    def __init__(self, w):
+        self._w, self.t = w, w.t
+
+    def __getitem__(self, name):
+        if name == "v(rect)":
+            return (self._w["v(sa)"] + self._w["v(sb)"]) / 2
+        if name == "i(lout)":
+            return self._w["i(lout)"] + self._w["i(lout2)"]
+        return self._w[name]
+
+    def mean_between(self, x, t0, t1):
+        return self._w.mean_between(x, t0, t1)
+
+
+def _filters_consistent(c: Circuit, lay: Layout, w) -> dict[str, float]:
+    """The output- and input-filter shift of ``simulate._slow_mode_shift`` (same
+    averaged equilibria, full bridge), with every period mean taken in a way that is
+    exact for the integration method: under backward Euler the window's trapezoidal
+    mean of a switched waveform is biased (an input-capacitor current that steps by
+    amperes came out 11 mA off), so the capacitor current's mean is C·Δv_C/T and the
+    rectified voltage's is <v_out> + DCR·<i_L> + L·Δi_L/T (Kirchhoff's laws over the
+    period); the choke current, capacitor voltages and v_out are smooth."""
+    ts = 1.0 / c.f_sw
+    t1 = w.t[-1]
+
+    def at(x, t):
+        return float(np.interp(t, w.t, x))
+
+    def period(k):  # (start, end) of the k-th period back from the end
+        return t1 - (k + 1) * ts, t1 - k * ts
+
+    def ends(means):  # last period's mean extrapolated half a period (as the bridges')
+        return 1.5 * means[0] - 0.5 * means[1]
+
+    sense, _, _, cp, cm = lay.caps[("input-capacitor", 0)]
+    v_c = w[f"v({cp})"] - w[f"v({cm})"]
+    i_choke, i_l = w["i(lch)"], w["i(lout)"]
+    i_cap = [c.c_in.capacitance * (at(v_c, b) - at(v_c, a)) / ts for a, b in map(period, (0, 1))]
+    v_bus = [w.mean_between(v_c, *period(k)) + c.c_in.esr * i_cap[k] for k in (0, 1)]
+    i_bridge = [w.mean_between(i_choke, *period(k)) + (c.v_in - v_bus[k]) / lay.r_damp
+                - i_cap[k] for k in (0, 1)]
+    a, b = period(0)
+    v_rect = (w.mean_between(w["v(out)"], a, b) + c.dcr_out * w.mean_between(i_l, a, b)
+              + c.l_out * (at(i_l, b) - at(i_l, a)) / ts)
+    i_now = ends([w.mean_between(i_l, *period(k)) for k in (0, 1)])
+    i_eq = c.v_in / v_bus[0] * v_rect / (lay.r_load + c.dcr_out)
+    _, _, _, op, om = lay.caps[("output-capacitor", 0)]
+    v_out = w[f"v({op})"] - w[f"v({om})"]
+    return {"lout": i_eq - i_now,
+            "cout": lay.r_load * i_eq - ends([w.mean_between(v_out, *period(k)) for k in (0, 1)]),
+            "lch": ends(i_bridge) * i_eq / i_now
+            - ends([w.mean_between(i_choke, *period(k)) for k in (0, 1)]),
+            "cin": c.v_in - ends(v_bus)}
+
+
+def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
+    """Contract of ``netlist.SLOW_MODE_SHIFTS``: (filter shift, flux shift, steady mean
+    output voltage) for every bridge circuit.
+
+    Plain circuits and synchronous rectifiers: the bridges' own shift. Current
+    doubler: the same with the two equal inductors in parallel (L/2, DCR/2, the mean of
+    the winding-end voltages drives their sum, Kirchhoff's laws); the common-mode shift
+    goes half to each, their difference decays by itself. Phase shift (integrated by
+    backward Euler, see :data:`PS_METHOD`): the filter shift from
+    :func:`_filters_consistent`; the flux-bias shift of the magnetizing current is also
+    a shift of the primary (leakage) current, the secondary carrying no bias.
+    """
+    from dataclasses import replace
+
+    from .simulate import _slow_mode_shift  # imported late: simulate imports netlist
+
+    v_steady = w.mean(w["v(out)"])
+    if c.modulation == "phase-shift":
+        _, flux = _slow_mode_shift(c, lay, w, duty)
+        return _filters_consistent(c, lay, w), {**flux, "llk": flux["lm"]}, v_steady
+    if c.rectifier != "current-doubler":
+        filters, flux = _slow_mode_shift(c, lay, w, duty)
+        return filters, flux, v_steady
+    par = replace(c, dcr_out=c.dcr_out * c.dcr_out_2 / (c.dcr_out + c.dcr_out_2)
+                  if c.dcr_out + c.dcr_out_2 > 0 else 0.0)
+    filters, flux = _slow_mode_shift(par, lay, _DoublerView(w), duty)
+    shared = filters.pop("lout") / 2
+    filters.update(lout=shared, lout2=shared)
+    return filters, flux, v_steady
+
+
+netlist.BUILDERS.update(dict.fromkeys(TOPOLOGIES, build_bridge))
+netlist.SLOW_MODE_SHIFTS.update(dict.fromkeys(TOPOLOGIES, slow_mode_shift))

@@ -1,0 +1,513 @@
+"""Phase-shifted full bridge (zero-voltage-switching PWM) with center-tap or full-bridge
+diode rectifier and the transformer's leakage inductance L_lk (plus any series resonant
+inductor, referred to the primary), continuous conduction of the output inductor.
+
+Switches (design order): Q0 leg A high, Q1 leg A low, Q2 leg B high, Q3 leg B low.
+Every switch conducts half a period less the dead time t_d. Leg B is the *lagging* leg
+(it ends the freewheel interval), leg A the *leading* leg (it ends the power interval).
+Time 0 is the lagging leg's transition Q2 -> Q3; the duty ratio D is the applied
+interval per half period (from a lagging to a leading transition) over Ts = 1/fs, the
+phase overlap of the two legs:
+  Q3 on [t_d, Ts/2],   Q2 on [Ts/2 + t_d, Ts],
+  Q0 on [Ts/2 + D·Ts + t_d, Ts + D·Ts],   Q1 on [D·Ts + t_d, Ts/2 + D·Ts].
+The primary sees +V_in while Q0 and Q3 (or their body diodes) conduct, −V_in with Q1
+and Q2, and is shorted in the freewheel: after the positive half-cycle through both
+*low-side* switches (Q1, Q3), after the negative one through both *high-side* switches
+(Q0, Q2). The voltage changes at each turn-off instant: the current commutates into the
+complementary switch's body diode (lossless zero-voltage transition, C_oss left out), so
+in the dead time after the leading leg switches the incoming switch's body diode
+carries the freewheeling current, and after the lagging leg switches it carries the
+reversing primary current.
+
+Segments of the first half period (the second mirrors it: i_p, i_m and the rectifiers
+swapped):
+  0 S0   lagging leg dead time, its body diode conducts, i_p reverses (both rectifiers on)
+  1 S1   i_p keeps reversing through the switch channels until the outgoing rectifier's
+         current reaches zero (end of the commutation)
+  2 OPEN only if i_p reaches zero inside the dead time: the primary stays open (i_p = 0,
+         the body diode blocks) until the lagging switch's channel turns on
+  3 S3   after OPEN: i_p rises from zero until the commutation ends
+  4 P    effective power interval, one rectifier conducts
+  5-6    leading leg dead time (body diode of Q1): both rectifiers on / one on
+  7-10   freewheel through the channels with both rectifiers on (4 sub-segments)
+  11     freewheel with one rectifier on
+Duty loss (Sabaté, Vlatković, Ridley, Lee and Cho, "Design considerations for
+high-voltage high-power full-bridge zero-voltage-switched PWM converter", IEEE APEC
+1990 — from memory): the secondary is shorted while the primary current reverses
+through L_lk, for Δt = L_lk·(I_p1 + I_p2)/V_in, I_p1 and I_p2 the primary current
+magnitudes before and after the reversal (2·n·I_o at full reflected load and
+negligible ripple), so the effective duty is D_eff = D − Δt·fs and, lossless,
+V_o = 2·n·D_eff·V_in [V] (our D per switch period; their D per half period = 2·D).
+This module solves the same intervals with the conduction drops:
+
+* Both rectifiers conducting (commutation, open primary, and freewheel where the drops
+  win): the rectifier node sits at −v_2(i_L) (center-tap v_f0 + (r_d + R_s)·i_L/2,
+  bridge 2·v_f0 + r_d·i_L) and the transformer at v_tx = ρ·(i_p − i_m)/n² (ρ = (R_s +
+  r_d)/2 center-tap, R_s + r_d bridge): the primary loop L_lk·di_p/dt = E − R·i_p − v_tx
+  is first order with time constant L_lk/(R + ρ/n²), solved exactly (exponential); E is
+  the source of the loop (V_in, 0, ± the body-diode drop v_f0,b), R its resistance.
+* One rectifier conducting (power interval; freewheel where L_lk sustains the current):
+  i_p = n·i_L + i_m, L_lk and the output inductor in series through the ideal
+  transformer: v_tx·(1 + n²·L_lk/L + L_lk/L_m) = E − R·i_p + n·L_lk·W/L, with W = V_o +
+  DCR·i_L + v_1(i_L) (v_1: drop of the single conducting path); di_L/dt = (n·v_tx −
+  W)/L, di_m/dt = v_tx/L_m; solved by the trapezoidal rule (exact for linear currents).
+* The freewheel leaves the one-rectifier state when the outgoing rectifier would be
+  forward biased, i.e. when the primary loop's drops make i_p fall faster than n·i_L
+  (in the dead time the body diode's v_f0,b adds to them), and returns when that
+  rectifier's current has fallen back to zero (both found by bisection).
+* Steady state: i_L(Ts/2) = i_L(0), i_m(Ts/2) = −i_m(0), i_p(Ts/2) = −i_p(0) and a mean
+  inductor current I_o: Newton on D with a fixed point on the three start values.
+* Switch v_peak: the bus, or the bus plus the body-diode drop of the complementary
+  switch while that conducts (ZVS transitions); rectifier v_reverse_peak before any
+  ringing: 2·n·v_tx − drops (center-tap), n·v_tx − drops (bridge).
+* Magnetizing current: swings by ∫v_tx dt/L_m, essentially V_in·D_eff·Ts/L_m; B_peak =
+  L_m·I_m,peak/(N_p·A_e) [T] (Faraday's law).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..waveforms import Grid, capacitor_voltage_samples, max_over, mean_over_samples
+from . import Stage, StageResult
+from .bridge import RectifierGroup
+
+SUB = 4  # sub-segments of a freewheel with both rectifiers on (exponential i_p)
+S0, S1, OPEN, S3, P, FA_SH, FA_SI = range(7)
+FB_SH = tuple(range(7, 7 + SUB))
+FB_SI = 7 + SUB
+HALF = FB_SI + 1
+APPLIED = np.array([k <= P for k in range(HALF)])  # the diagonal drives the primary
+SINGLE = np.isin(np.arange(HALF), [P, FA_SI, FB_SI])
+LEAD_BODY = np.isin(np.arange(HALF), [FA_SH, FA_SI])
+LAG_BODY = np.arange(HALF) == S0
+BUS_PASSES = 6
+MAX_ITER = 80
+PATIENCE = 15  # iterations after which the noise floor (ACCEPT_TOL) is good enough
+SLOPE_UPDATES = 4  # Newton iterations on D that refresh the slope
+ROOT_ITER = 60  # Newton steps (with bisection fallback) of an interval end, at most
+ROOT_TOL = 1e-13  # of the bracket: stop when every corner's step is below it
+REL_TOL = 1e-9  # relative step of the steady-state iteration at which it stops
+ACCEPT_TOL = 1e-6  # ... and below which its result counts as converged (noise floor
+# ~1e-10 where a freewheel sits at the edge of turning both rectifiers on)
+
+
+class _Params:
+    """Per-corner circuit values of the model [SI], (N,) arrays or scalars."""
+
+    def __init__(self, st: Stage):
+        xf, ind = st.transformer, st.inductors[0]
+        self.n = xf.n_s / xf.n_p
+        self.l_lk, self.l_m, self.l = xf.l_leak, xf.l_m, ind.l
+        self.dcr, self.r_s, self.r_p = ind.dcr, xf.r_s, xf.r_p
+        self.ts = 1.0 / st.fs
+        self.t_d = st.dead_time
+        self.vo, self.io = st.vo, st.io
+        sw = st.group("switch")
+        self.r_lead = (sw[0].r_on + sw[1].r_on) / 2
+        self.r_lag = (sw[2].r_on + sw[3].r_on) / 2
+        self.vb = np.mean([d.v_f0 for d in sw], axis=0)
+        self.rb = np.mean([d.r_d for d in sw], axis=0)
+        rect = RectifierGroup(st.group("rectifier"))
+        self.vf, self.rd = rect.v_f0, rect.r_d
+        self.bridge = st.rectifier == "full-bridge"
+        if self.bridge:
+            self.c1, self.r1 = 2 * self.vf, 2 * self.rd + self.r_s  # one path conducts
+            self.c2, self.r2 = 2 * self.vf, self.rd  # rectifier node, all four conduct
+            self.rho = self.r_s + self.rd
+        else:
+            self.c1, self.r1 = self.vf, self.rd + self.r_s
+            self.c2, self.r2 = self.vf, (self.rd + self.r_s) / 2
+            self.rho = (self.r_s + self.rd) / 2
+        self.r_diag = self.r_lead + self.r_lag + self.r_p  # two channels + winding
+
+
+def _ratio(x, small, exact, series):
+    """exact(x), or its series where |x| <= small (removable singularity at 0)."""
+    return np.where(np.abs(x) > small, exact(np.where(np.abs(x) > small, x, 1.0)), series(x))
+
+
+def _shared(p, e, r, ip0, il0, m0, t, slope=False):
+    """Both rectifiers on: (i_p, i_L, i_m) after time t [A]; with ``slope``, also
+    d/dt of n·i_L + i_m − i_p there [A/s]."""
+    r_eff = r + p.rho / p.n ** 2
+    drive = e + p.rho * m0 / p.n ** 2 - r_eff * ip0  # L_lk·di_p/dt at the start
+    x = t * r_eff / p.l_lk
+    g = _ratio(x, 1e-6, lambda y: -np.expm1(-y) / y, lambda y: 1 - y / 2)
+    h = _ratio(x, 1e-4, lambda y: (y + np.expm1(-y)) / y ** 2, lambda y: 0.5 - y / 6)
+    ip = ip0 + drive * t / p.l_lk * g
+    ip_mean = ip0 + drive * t / p.l_lk * h
+    rw = p.dcr + p.r2
+    k_l = p.vo + p.c2 + rw * il0
+    il = il0 - k_l * t / (p.l + rw * t / 2)
+    m = m0 + p.rho * (ip_mean - m0) * t / (p.n ** 2 * p.l_m)
+    if not slope:
+        return ip, il, m
+    d_ip = drive / p.l_lk * np.exp(-x)
+    d_il = -k_l * p.l / (p.l + rw * t / 2) ** 2
+    d_m = p.rho * (ip - m0) / (p.n ** 2 * p.l_m)
+    return (ip, il, m), p.n * d_il + d_m - d_ip
+
+
+def _shared_f(p, e, r, ip0, il0, m0, t):
+    """n·i_L + i_m − i_p (2n times the outgoing rectifier's current, both on) and its
+    time derivative."""
+    (ip, il, m), slope = _shared(p, e, r, ip0, il0, m0, t, slope=True)
+    return p.n * il + m - ip, slope
+
+
+def _single(p, e, r, ip0, il0, m0, dt):
+    """One rectifier on, trapezoidal step of length dt: (i_p, i_L, i_m, v_tx)."""
+    eps = 1e-12 * p.ts
+    dt = np.where(np.abs(dt) < eps, eps, dt)
+    rw = p.dcr + p.r1
+    w0 = p.vo + p.c1 + rw * il0
+    g = p.l_lk / dt + r / 2
+    h = 1.0 / (p.l / dt + rw / 2)
+    v_tx = (e - r * ip0 + g * p.n * h * w0) / (1 + g * p.n ** 2 * h + g * dt / p.l_m)
+    d_il = h * (p.n * v_tx - w0)
+    d_m = v_tx * dt / p.l_m
+    return ip0 + p.n * d_il + d_m, il0 + d_il, m0 + d_m, v_tx
+
+
+def _shared_rises(p, e, r, ip, il, m):
+    """Whether the outgoing rectifier turns on at once (d/dt of n·i_L + i_m − i_p > 0
+    in the both-on state, from a start where it carries nothing)."""
+    r_eff = r + p.rho / p.n ** 2
+    dip = (e + p.rho * m / p.n ** 2 - r_eff * ip) / p.l_lk
+    dil = -(p.vo + p.c2 + (p.dcr + p.r2) * il) / p.l
+    dm = p.rho * (ip - m) / (p.n ** 2 * p.l_m)
+    return p.n * dil + dm - dip > 0
+
+
+def _zero_crossing(p, e, r, ip0, il0, m0):
+    """Time for i_p, negative at the start, to reach zero with both rectifiers on [s]:
+    the exponential i_∞ + (i_p0 − i_∞)·exp(−t/τ) in closed form, τ = L_lk/(R + ρ/n²)."""
+    r_eff = r + p.rho / p.n ** 2
+    a = np.maximum(e + p.rho * m0 / p.n ** 2, 1e-30)  # L_lk·di_p/dt at i_p = 0
+    y = -ip0 * r_eff / a
+    t = p.l_lk * (-ip0) / a * _ratio(y, 1e-8, lambda z: np.log1p(z) / z, lambda z: 1 - z / 2)
+    return np.where(ip0 < 0, t, 0.0)
+
+
+def _last_nonnegative(f, hi, guess=None):
+    """Root t in (0, hi] of f, where f >= 0 from 0 up to the root and < 0 after it;
+    hi where f(hi) >= 0. ``f(t) -> (value, slope)``. Newton steps inside a shrinking
+    bracket, bisection where a step would leave it."""
+    lo = np.zeros_like(hi)
+    f_hi, _ = f(hi)
+    keep = f_hi >= 0
+    top = hi.copy()
+    t = hi.copy() if guess is None else np.clip(guess, 0.0, hi)
+    tol = ROOT_TOL * np.max(np.abs(hi))
+    for _ in range(ROOT_ITER):
+        val, slope = f(t)
+        up = val >= 0
+        lo = np.where(up, t, lo)
+        top = np.where(up, top, t)
+        step = np.where(slope < 0, t - val / np.where(slope < 0, slope, -1.0), np.nan)
+        inside = (step >= lo) & (step <= top)
+        t_new = np.where(inside, step, (lo + top) / 2)
+        done = np.all((np.abs(t_new - t) <= tol) | keep)
+        t = t_new
+        if done:
+            break
+    val, _ = f(t)
+    t = np.where(val >= 0, t, lo)  # stay on the side where the rectifier still conducts
+    return np.where(keep, hi, t)
+
+
+def _half(p, v, d, i_a, i_m, p_a):
+    """Segments of the first half period: durations and start/end values (N, HALF)."""
+    n_c = v.shape[0]
+    dt = np.zeros((n_c, HALF))
+    ip_a, ip_b = np.zeros((n_c, HALF)), np.zeros((n_c, HALF))
+    il_a, il_b = np.zeros((n_c, HALF)), np.zeros((n_c, HALF))
+    m_a, m_b = np.zeros((n_c, HALF)), np.zeros((n_c, HALF))
+    shared = np.ones((n_c, HALF), dtype=bool)
+
+    def put(k, dur, start, end, both=True):
+        dt[:, k] = dur
+        ip_a[:, k], il_a[:, k], m_a[:, k] = start
+        ip_b[:, k], il_b[:, k], m_b[:, k] = end
+        shared[:, k] = both
+
+    t_d = np.full(n_c, p.t_d)
+    state = (-p_a, i_a.copy(), -i_m)
+    # S0: the lagging leg's body diode; the reversing current flows against its drop,
+    # which adds to the source.
+    e0, r0 = v + p.vb, p.r_lead + p.rb + p.r_p
+    t_z = _zero_crossing(p, e0, r0, *state)
+    dur = np.minimum(t_d, t_z)
+    end = _shared(p, e0, r0, *state, dur)
+    put(S0, dur, state, end)
+    state = end
+    case_a = t_z > t_d
+    # S1 (current still flowing at the end of the dead time): channels, until the
+    # outgoing rectifier's current is zero.
+    e1, r1 = v, p.r_diag
+    half_t = p.ts / 2 * np.ones(n_c)
+
+    def commutate(start):
+        f0, slope0 = _shared_f(p, e1, r1, *start, np.zeros(n_c))
+        guess = np.where(slope0 < 0, -f0 / np.where(slope0 < 0, slope0, -1.0), 0.0)
+        root = _last_nonnegative(lambda t: _shared_f(p, e1, r1, *start, t), half_t, guess)
+        return root, _shared(p, e1, r1, *start, root)
+
+    t1, end1 = commutate(state)
+    dur = np.where(case_a, t1, 0.0)
+    end = tuple(np.where(case_a, x, s) for x, s in zip(end1, state))
+    put(S1, dur, state, end)
+    state = end
+    # OPEN (current reached zero inside the dead time): i_p = 0 until the channel turns on.
+    dur = np.where(case_a, 0.0, t_d - t_z)
+    ip0 = np.where(case_a, state[0], 0.0)
+    start = (ip0, state[1], state[2])
+    rw = p.dcr + p.r2
+    il_end = state[1] - (p.vo + p.c2 + rw * state[1]) * dur / (p.l + rw * dur / 2)
+    m_end = state[2] - p.rho * state[2] * dur / (p.n ** 2 * p.l_m)
+    end = (ip0, il_end, m_end)
+    put(OPEN, dur, start, end)
+    state = end
+    # S3: after OPEN, from i_p = 0 until the commutation ends.
+    t3, end3 = commutate(state)
+    dur = np.where(case_a, 0.0, t3)
+    end = tuple(np.where(case_a, s, x) for x, s in zip(end3, state))
+    put(S3, dur, state, end)
+    state = end
+    # P: effective power interval, one rectifier.
+    t_pre = dt[:, :P].sum(axis=1)
+    dur = d * p.ts - t_pre
+    ip, il, m, _ = _single(p, e1, r1, p.n * state[1] + state[2], state[1], state[2], dur)
+    start = (p.n * state[1] + state[2], state[1], state[2])
+    end = (ip, il, m)
+    put(P, dur, start, end, both=False)
+    state = end
+
+    def freewheel(start, e, r, length, k_shared, k_single, was_shared):
+        """A freewheel interval: both rectifiers on until the outgoing one's current is
+        back at zero (if it starts on), then one rectifier."""
+        begins = was_shared | _shared_rises(p, e, r, *start)
+        root = _last_nonnegative(lambda t: _shared_f(p, e, r, *start, t), length)
+        t_sh = np.where(begins, root, 0.0)
+        mid = _shared(p, e, r, *start, t_sh)
+        mid = tuple(np.where(begins, x, s) for x, s in zip(mid, start))
+        if isinstance(k_shared, tuple):
+            sub = t_sh / len(k_shared)
+            s = start
+            for j, k in enumerate(k_shared):
+                e_j = _shared(p, e, r, *start, sub * (j + 1))
+                e_j = tuple(np.where(begins, x, s0) for x, s0 in zip(e_j, start))
+                put(k, sub, s, e_j)
+                s = e_j
+        else:
+            put(k_shared, t_sh, start, mid)
+        rest = length - t_sh
+        end_shared = begins & (rest <= 0)  # both on to the end: no one-rectifier part
+        s_start = tuple(np.where(end_shared, x, y)
+                        for x, y in zip(mid, (p.n * mid[1] + mid[2], mid[1], mid[2])))
+        ip, il, m, _ = _single(p, e, r, *s_start, rest)
+        s_end = tuple(np.where(end_shared, x, y) for x, y in zip(mid, (ip, il, m)))
+        put(k_single, rest, s_start, s_end, both=False)
+        return s_end, end_shared
+
+    # leading leg's dead time: Q1's body diode in the loop, then its channel
+    state, sh = freewheel(state, -p.vb, p.rb + p.r_lag + p.r_p, t_d, FA_SH, FA_SI,
+                          np.zeros(n_c, dtype=bool))
+    state, _ = freewheel(state, np.zeros(n_c), p.r_diag, (0.5 - d) * p.ts - t_d, FB_SH,
+                         FB_SI, sh)
+    return dt, (ip_a, ip_b), (il_a, il_b), (m_a, m_b), shared
+
+
+def _solve(p, v, start=None):
+    """Steady state at source voltage v: duty, start values (i_L, i_m and i_p at t = 0)
+    and the half-period arrays. ``start``: (D, I_A, I_M, P_A) of a previous solution."""
+    n, ts = p.n, p.ts
+    if start is None:  # lossless estimates (Sabaté et al.; see the module docstring)
+        d_eff = p.vo / (2 * n * v)
+        ripple = p.vo * (0.5 - d_eff) * ts / p.l
+        i_a = p.io - ripple / 2
+        i_m = v * d_eff * ts / (2 * p.l_m)
+        p_a = n * i_a + i_m
+        d = d_eff + 2 * n * i_a * p.l_lk / v / ts
+    else:
+        d, i_a, i_m, p_a = (np.array(x, dtype=float) for x in start)
+    step = 1e-7
+
+    def run(dd):
+        out = _half(p, v, dd, i_a, i_m, p_a)
+        _, _, (il_a, il_b), _, _ = out
+        return out, il_b[:, -1] - i_a
+
+    for it in range(MAX_ITER):
+        out, res = run(d)
+        if it < SLOPE_UPDATES:  # the balance's slope in D hardly moves after that
+            _, res2 = run(d + step)
+            slope = (res2 - res) / step
+        d_new = d - res / np.where(slope > 0, slope, np.inf)
+        dt, (ip_a, ip_b), (il_a, il_b), (m_a, m_b), _ = out
+        mean_il = (dt * (il_a + il_b) / 2).sum(axis=1) / dt.sum(axis=1)
+        i_a_new = i_a + (p.io - mean_il)
+        i_m_new = (m_b[:, -1] + i_m) / 2
+        p_a_new = ip_b[:, -1]
+        scale = np.maximum(p.io, 1e-9)
+        moved = np.maximum.reduce([np.abs(d_new - d) / np.maximum(d, 1e-9),
+                                   np.abs(i_a_new - i_a) / scale,
+                                   np.abs(i_m_new - i_m) / scale,
+                                   np.abs(p_a_new - p_a) / (n * scale)])
+        d, i_a, i_m, p_a = d_new, i_a_new, i_m_new, p_a_new
+        if (moved < REL_TOL).all() or (it >= PATIENCE and (moved < ACCEPT_TOL).all()):
+            break
+    converged = moved < ACCEPT_TOL
+    out, _ = run(d)
+    # the mean of i_L is I_o to the iteration's tolerance: remove that residual exactly
+    # (charge balance of the output capacitor), a uniform shift far below any stress
+    dt, ip, (il_a, il_b), m, shared = out
+    off = (p.io - (dt * (il_a + il_b) / 2).sum(axis=1) / dt.sum(axis=1))[:, None]
+    return (d, i_a, i_m, p_a), (dt, ip, (il_a + off, il_b + off), m, shared), converged
+
+
+def _mirror(h1, h2=None):
+    """Full-period (a, b) arrays from the first half's and the second half's values."""
+    h2 = h1 if h2 is None else h2
+    return tuple(np.concatenate([x, y], axis=1) for x, y in zip(h1, h2))
+
+
+def _only(mask, values):
+    """(a, b) arrays kept where the half-period ``mask`` (HALF,) holds, else zero."""
+    return [np.where(mask[None, :], x, 0.0) for x in values]
+
+
+def _masked_max(samples, mask):
+    """Max of (N, S, k) samples over segments where ``mask`` (N, S) holds; -inf if none."""
+    return np.where(mask[:, :, None], samples, -np.inf).max(axis=(1, 2))
+
+
+def evaluate(st: Stage) -> StageResult:
+    p = _Params(st)
+    n, io = p.n, st.io
+    cin = st.capacitors[("input-capacitor", 0)]
+    applied = np.concatenate([APPLIED, APPLIED])
+    v = st.vin.copy()
+    start = None
+    for _ in range(BUS_PASSES):  # the bus ripple lowers the mean applied voltage
+        start, (dt, ip, il, m, shared), converged = _solve(p, v, start)
+        grid = Grid(np.concatenate([dt, dt], axis=1))
+        # the bus feeds the primary while a diagonal (or its body diode) applies it
+        i_bus = grid.wave(*_mirror(_only(APPLIED, ip)))
+        i_dc = i_bus.mean()
+        i_cin = i_dc - i_bus
+        bus = capacitor_voltage_samples(i_cin, cin.c, cin.esr, st.vin)
+        v_new = mean_over_samples(bus, grid, applied)
+        settled = np.allclose(v_new, v, rtol=1e-9, atol=0)
+        v = v_new
+        if settled:
+            break
+    d, i_a0, i_m0, _ = start
+    ip_w = grid.wave(*_mirror(ip, tuple(-x for x in ip)))
+    il_w = grid.wave(*_mirror(il))
+    m_w = grid.wave(*_mirror(m, tuple(-x for x in m)))
+    # rectifiers in the first half: the incoming one (A) and the outgoing one (B);
+    # both on: (i_L ± (i_p − i_m)/n)/2, one on: i_L and 0
+    split = (il_w + (ip_w - m_w) / n) / 2
+    r1_half = [np.where(shared, x[:, :HALF], i) for x, i in zip((split.a, split.b), il)]
+    r2_half = [i - r for i, r in zip(il, r1_half)]
+    rect_a = grid.wave(*_mirror(r1_half, r2_half))
+    rect_b = grid.wave(*_mirror(r2_half, r1_half))
+    # switches, channel drain -> source and body-diode forward current, from the first
+    # half's i_p (the second half mirrors it; see the module docstring for who conducts)
+    zero = [np.zeros_like(x) for x in ip]
+    neg = [-x for x in ip]
+    fw_ch = ~APPLIED & ~LEAD_BODY  # freewheel through both channels of one rail
+    lag_ch = ~LAG_BODY  # the lagging switch's channel: all its half but the dead time
+
+    def live(w):  # a body diode conducts only in segments of non-zero length
+        return w.only(grid.dt > 0)
+
+    currents = {
+        ("switch", 0): grid.wave(*_mirror(_only(APPLIED, ip), _only(fw_ch, neg))),
+        ("switch", 1): grid.wave(*_mirror(_only(fw_ch, neg), _only(APPLIED, ip))),
+        ("switch", 2): grid.wave(*_mirror(zero, _only(lag_ch, ip))),
+        ("switch", 3): grid.wave(*_mirror(_only(lag_ch, ip), zero)),
+        ("inductor", 0): il_w, ("output-capacitor", 0): il_w - io,
+        ("input-capacitor", 0): i_cin}
+    body = {("switch", 0): live(grid.wave(*_mirror(zero, _only(LEAD_BODY, ip)))),
+            ("switch", 1): live(grid.wave(*_mirror(_only(LEAD_BODY, ip), zero))),
+            ("switch", 2): live(grid.wave(*_mirror(zero, _only(LAG_BODY, neg)))),
+            ("switch", 3): live(grid.wave(*_mirror(_only(LAG_BODY, neg), zero)))}
+    if p.bridge:
+        for k in (0, 3):
+            currents[("rectifier", k)] = rect_a
+        for k in (1, 2):
+            currents[("rectifier", k)] = rect_b
+    else:
+        currents[("rectifier", 0)], currents[("rectifier", 1)] = rect_a, rect_b
+
+    # blocking voltages ----------------------------------------------------------------
+    lasting = grid.dt > 0
+    bus_max = max_over(bus)
+    ip_s, il_s = ip_w.samples(), il_w.samples()
+
+    def col(x):  # (N,) or scalar -> broadcast against (N, S, k) samples
+        return np.reshape(x, (-1, 1, 1)) if np.ndim(x) else x
+
+    def per_segment(half_values):  # (HALF,) values, both halves -> (1, S, 1)
+        return np.concatenate([half_values, half_values])[None, :, None]
+
+    # an off switch sees the bus plus the drop of its complement's body diode
+    v_body = col(p.vb) + col(p.rb) * np.abs(ip_s)
+    lead = np.concatenate([LEAD_BODY, LEAD_BODY])[None, :] & lasting
+    lag = np.concatenate([LAG_BODY, LAG_BODY])[None, :] & lasting
+    v_lead = np.maximum(bus_max, _masked_max(bus + v_body, lead))
+    v_lag = np.maximum(bus_max, _masked_max(bus + v_body, lag))
+    v_block = {("switch", 0): v_lead, ("switch", 1): v_lead, ("switch", 2): v_lag,
+               ("switch", 3): v_lag, ("input-capacitor", 0): bus_max}
+    # transformer voltage where one rectifier conducts, from the instantaneous loop
+    # relation (module docstring), with the first half's sign of i_p
+    e_loop = np.where(per_segment(APPLIED), bus, 0.0)
+    e_loop = np.where(per_segment(LEAD_BODY), -col(p.vb), e_loop)
+    r_loop = np.where(per_segment(LEAD_BODY), col(p.rb + p.r_lag + p.r_p), col(p.r_diag))
+    ip_first = ip_s * np.where(np.arange(2 * HALF) < HALF, 1.0, -1.0)[None, :, None]
+    w_s = col(p.vo + p.c1) + col(p.dcr + p.r1) * il_s
+    v_tx = (e_loop - r_loop * ip_first + p.l_lk * n * w_s / col(p.l)) / \
+        col(1 + n ** 2 * p.l_lk / p.l + p.l_lk / p.l_m)
+    # the blocking rectifier: the whole (bridge: one) secondary less the conducting
+    # path's diode and winding drops
+    drop = col(p.vf) + col(p.rd + p.r_s) * il_s
+    v_rev = (n if p.bridge else 2 * n) * v_tx - drop
+    single = np.concatenate([SINGLE, SINGLE])[None, :] & lasting
+    v_rect = np.maximum(_masked_max(v_rev, single), 0.0)
+    for k in currents:
+        if k[0] == "rectifier":
+            v_block[k] = v_rect
+    cout = st.capacitors[("output-capacitor", 0)]
+    v_out = capacitor_voltage_samples(il_w - io, cout.c, cout.esr, st.vo)
+    v_block[("output-capacitor", 0)] = max_over(v_out)
+
+    # transformer ------------------------------------------------------------------------
+    p_wind = p.r_p * ip_w.rms() ** 2
+    if p.bridge:
+        p_wind = p_wind + p.r_s * (rect_a - rect_b).rms() ** 2
+    else:
+        p_wind = p_wind + p.r_s * (rect_a.rms() ** 2 + rect_b.rms() ** 2)
+    i_m_peak = m_w.peak()
+    xf = st.transformer
+    b_peak = p.l_m * i_m_peak / (xf.n_p * xf.core_area) if xf.core_area else None
+
+    rect_min = np.minimum(rect_a.min(), rect_b.min())
+    invalid = [
+        (~converged, "the phase-shift model found no steady state (its interval "
+                     "equations did not converge); check the leakage inductance and the "
+                     "operating point"),
+        (il_w.min() <= 0, "the output inductor current falls to zero (discontinuous "
+                          "conduction), which the phase-shifted bridge model does not "
+                          "cover yet; raise the minimum load or the output inductance"),
+        (rect_min < -ACCEPT_TOL * np.maximum(io, 1.0),  # below the solution noise
+         "the magnetizing current exceeds the reflected inductor current while both "
+         "rectifiers conduct, so one would stop (not modelled); raise the magnetizing "
+         "inductance or the minimum load"),
+    ]
+    return StageResult(duty=d, grid=grid, currents=currents, v_block=v_block,
+                       input_current=i_dc, winding_loss=p_wind, b_peak=b_peak,
+                       i_m_peak=i_m_peak, i_l_start=i_a0, i_m_start=-i_m0, body=body,
+                       invalid=invalid, regime=np.full(io.shape, "CCM", dtype=object))

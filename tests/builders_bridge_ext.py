@@ -1,0 +1,50 @@
+"""Test helpers for the bridge extensions: phase-shift modulation, current-doubler
+rectifier, synchronous rectifiers. Built on tests/builders.py; the parts are test
+fixtures (values chosen to make a relation easy to check), not a parts library.
+"""
+
+from __future__ import annotations
+
+from builders import LOSSLESS, bridge_design, bridge_parts, part
+
+
+def ext_parts(*, lossless=False, l_leak=None, sync_r_on="4 mohm", **kw):
+    """Bridge test parts plus a synchronous-rectifier MOSFET ("t-srfet") and, if
+    ``l_leak`` is given, the transformer's leakage inductance."""
+    parts = bridge_parts(lossless=lossless, **kw)
+    e = LOSSLESS if lossless else {}
+    parts["t-srfet"] = part("mosfet", "si", {"v_ds": "100 V", "i_d": "80 A", "i_dm": "300 A",
+                                             "t_j_max": "175 degC"},
+                            {"r_ds_on": e.get("r_ds_on", sync_r_on), "r_ds_on_tc": "0.5 %/K",
+                             "v_sd": "0.8 V"},
+                            {"r_th_jc": "1 K/W"})
+    if lossless:
+        # body diode of the lossless limit: no drop (r_sd ~ 0, v_sd 0)
+        parts["t-srfet"]["electrical"].update(v_sd="0 V", r_sd="1e-9 ohm")
+        parts["t-fet"]["electrical"].update(v_sd="0 V", r_sd="1e-9 ohm")
+    if l_leak is not None:
+        parts["t-xfmr"]["electrical"]["leakage_inductance"] = l_leak
+    return parts
+
+
+def ext_design(topology="full-bridge", rectifier="center-tap", *, modulation="pwm",
+               sync=False, dead_time=None, **kw):
+    """A bridge test design with the extension options; current doubler: inductors
+    L1, L2 in one entry; ``sync``: MOSFET rectifiers ("t-srfet")."""
+    doc = bridge_design(topology, rectifier if rectifier != "current-doubler"
+                        else "center-tap", **kw)
+    doc["converter"]["rectifier"] = rectifier
+    doc["converter"]["modulation"] = modulation
+    if dead_time is not None:
+        doc["converter"]["dead_time"] = dead_time
+    name = kw.get("name") or f"test {topology} {modulation} {rectifier}" + (
+        " synchronous" if sync else "")
+    doc["converter"]["name"] = name
+    for comp in doc["components"]:
+        if comp["role"] == "inductor" and rectifier == "current-doubler":
+            comp.pop("ref", None)
+            comp["refs"] = ["L1", "L2"]
+        if comp["role"] == "rectifier" and sync:
+            comp["part"] = "t-srfet"
+            comp["refs"] = [f"SR{i + 1}" for i in range(len(comp["refs"]))]
+    return doc

@@ -1,0 +1,118 @@
+"""Computed stresses of the bridge extensions against an ngspice simulation of the same
+circuit: phase-shifted full bridge (center-tap, leakage inductance, dead time), full
+bridge and half bridge with current doubler, full bridge with synchronous center-tap
+rectifier (with dead time; and forced CCM at light load).
+
+Reference: ngspice transient simulation (stresscheck.spice.netlist_bridge_ext: ideal
+transformer from controlled sources plus magnetizing inductance and, for phase shift,
+an explicit series leakage inductance; switches with R_DS(on) and body diodes gated per
+switch; straight-line diodes; L with DCR, C with ESR; a DC-only input source), regulated
+to the same output voltage and measured over whole periods in steady state.
+
+Tolerances (stated by the project, verify.TOL_AVERAGE and verify.TOL_PEAK, not tuned to
+pass): 2 % on voltages, averages and rms values; 4 % on peaks and capacitor ripple. What
+they cover here: the analytic model takes each drop at the segment's mean current and the
+bus at its mean over the applied interval; the load resistor takes a share of the output
+ripple (the model gives it all to the capacitor: +0.4 % measured); the exact diode
+curve. Measured differences when written: at most 0.44 % (output-capacitor ripple),
+everything else below 0.33 %.
+
+Each case runs at low and high line (full load, hot ambient). The netlists and results
+are committed in tests/reference/spice/ (file name = case and line); rerun with
+STRESSCHECK_UPDATE_REFERENCE=1 to rewrite them after a model change. Without ngspice the
+module is skipped, unless STRESSCHECK_REQUIRE_NGSPICE=1.
+"""
+
+import json
+import os
+import shutil
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from builders import write_case
+from builders_bridge_ext import ext_design, ext_parts
+from stresscheck.design import load_design
+from stresscheck.engine import run
+from stresscheck.verify import TOL_AVERAGE, TOL_PEAK, compare_at
+
+HAVE_NGSPICE = shutil.which("ngspice") is not None
+REQUIRE = os.environ.get("STRESSCHECK_REQUIRE_NGSPICE") == "1"
+UPDATE = os.environ.get("STRESSCHECK_UPDATE_REFERENCE") == "1"
+REFERENCE = Path(__file__).parent / "reference" / "spice"
+pytestmark = pytest.mark.skipif(not HAVE_NGSPICE and not REQUIRE,
+                                reason="ngspice not installed")
+
+# case -> (topology, rectifier, design options, part options, load): 48 V nominal bus
+# (40-60 V) to 12 V; current doubler with twice the turns ratio and 47 uH inductors
+# (each carries I_o/2 with a ripple at fs).
+CASES = {
+    "fb-ps-ct-48v": ("full-bridge", "center-tap",
+                     dict(modulation="phase-shift", dead_time="100 ns"),
+                     dict(l_leak="1 uH"), "max"),
+    "fb-cd-48v": ("full-bridge", "current-doubler", {}, dict(n_s=4, l_out="47 uH"), "max"),
+    "hb-cd-48v": ("half-bridge", "current-doubler", {}, dict(n_s=8, l_out="47 uH"), "max"),
+    "fb-ct-sync-48v": ("full-bridge", "center-tap", dict(sync=True, dead_time="100 ns"), {},
+                       "max"),
+    # forced CCM: at 1 A the inductor current reverses (down to -0.8 A at high line)
+    "fb-ct-sync-light-48v": ("full-bridge", "center-tap",
+                             dict(sync=True, io={"min": "1 A", "max": "10 A"}), {}, "min"),
+}
+LINES = {"fb-ct-sync-light-48v": ["highline"]}
+RUNS = [(name, line) for name in CASES for line in LINES.get(name, ["lowline", "highline"])]
+# quantity classes every case must compare (nothing silently skipped); a synchronous
+# rectifier reports v_peak (a MOSFET), a diode v_reverse_peak and i_avg
+COMMON = {"v_peak", "i_rms", "i_peak", "i_ripple_rms", "b_peak"}
+
+
+def corner_index(ev, line, load):
+    c = ev.corners
+    vin = c["input_voltage"].min() if line == "lowline" else c["input_voltage"].max()
+    io = c["output_current"].max() if load == "max" else c["output_current"].min()
+    mask = ((c["input_voltage"] == vin) & (c["output_current"] == io)
+            & (c["ambient_temperature"] == c["ambient_temperature"].max()))
+    return int(np.flatnonzero(mask)[0])
+
+
+@pytest.mark.ngspice
+@pytest.mark.parametrize("name,line", RUNS)
+def test_stresses_match_ngspice(tmp_path, name, line):
+    if not HAVE_NGSPICE:
+        pytest.fail("STRESSCHECK_REQUIRE_NGSPICE=1 but ngspice is not installed")
+    from stresscheck.spice.simulate import simulate
+
+    topology, rectifier, opts, part_opts, load = CASES[name]
+    parts = ext_parts(**{"c_in": "20 uF", **part_opts})
+    ev = run(load_design(write_case(tmp_path, ext_design(topology, rectifier, **opts), parts)))
+    i = corner_index(ev, line, load)
+    folder = REFERENCE if UPDATE else tmp_path
+    stem = f"{name}-{line}"
+    sim = simulate(ev.circuit_at(i), keep_netlist=folder / f"{stem}.cir")
+    comparisons = compare_at(ev, i, sim)
+    compared = {c.quantity for c in comparisons}
+    diode = not opts.get("sync")
+    assert COMMON | ({"v_reverse_peak", "i_avg"} if diode else set()) <= compared
+    if rectifier == "current-doubler":  # both inductors measured and compared
+        assert {c.ref for c in comparisons if c.quantity == "i_rms"} >= {"L1", "L2"}
+    assert all(c.tolerance in (TOL_AVERAGE, TOL_PEAK) for c in comparisons)
+    outside = [f"{c.ref} {c.quantity}: computed {c.computed:.5g}, simulated "
+               f"{c.simulated:.5g} ({100 * c.rel:+.2f} % vs ±{100 * c.tolerance:.0f} %)"
+               for c in comparisons if not c.ok]
+    assert not outside, "\n".join(outside)
+    # the regulated duty (phase overlap for the phase shift) agrees as well: the duty
+    # loss from the leakage inductance is in both
+    assert sim.duty == pytest.approx(float(ev.result.duty[i]), rel=TOL_AVERAGE)
+
+    # The committed reference is reproduced (same models and simulator: far better than
+    # 1e-3; a model change that moves the circuit needs STRESSCHECK_UPDATE_REFERENCE=1).
+    committed = REFERENCE / f"{stem}.json"
+    if not committed.is_file():
+        pytest.fail(f"{committed} missing; run with STRESSCHECK_UPDATE_REFERENCE=1")
+    ref = json.loads(committed.read_text())
+    assert sim.duty == pytest.approx(ref["duty"], rel=1e-3)
+    for key, quantities in ref["positions"].items():
+        role, k = key.split(":")
+        for q, value in quantities.items():
+            assert sim.positions[(role, int(k))][q] == pytest.approx(value, rel=1e-3,
+                                                                     abs=1e-6), f"{key} {q}"
