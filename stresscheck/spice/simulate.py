@@ -379,7 +379,7 @@ def simulate(c: Circuit, *, keep_netlist: Path | None = None) -> SimResult:
                                   f"(duty {duty:.6f}, mean v_out {v_mean:.6g} V)")
     diag = dict(m["diagnostics"])
     diag.update(runs=n_run, wall_time=time.perf_counter() - t0, steady_dv=dv, steady_di=di)
-    if getattr(c, "l_leak", 0.0):
+    if c.l_leak and c.modulation != "phase-shift":  # phase-shift decks simulate it
         diag["l_leak_ignored"] = c.l_leak  # no clamp or snubber modelled for its energy
     res = SimResult(duty=duty, v_out_mean=v_mean, p_in=m["p_in"], p_out=m["p_out"],
                     positions=m["positions"], diagnostics=diag)
