@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass, field
-from importlib import resources
+import importlib.util
 from pathlib import Path
 
 from . import schema
@@ -135,13 +135,13 @@ def _check_consistency(part: Part) -> None:
 def shipped_library() -> Path:
     """Folder of the part library shipped inside the package (``parts/`` of the source
     tree, installed as the data package ``stresscheck.part_library``)."""
-    try:
-        return Path(str(resources.files("stresscheck.part_library")))
-    except (ModuleNotFoundError, TypeError):  # running from a source checkout
-        source_tree = Path(__file__).resolve().parent.parent / "parts"
-        if source_tree.is_dir():
-            return source_tree
-        raise
+    try:  # a data folder without __init__.py is a namespace package: take its folder
+        spec = importlib.util.find_spec("stresscheck.part_library")
+    except ModuleNotFoundError:
+        spec = None
+    if spec is not None and spec.submodule_search_locations:
+        return Path(list(spec.submodule_search_locations)[0])
+    return Path(__file__).resolve().parent.parent / "parts"  # a source checkout
 
 
 class PartLibrary:
