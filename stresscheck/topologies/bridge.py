@@ -461,4 +461,6 @@ def _evaluate_pwm(st: Stage) -> StageResult:
                        input_current=i_dc, winding_loss=p_wind, b_peak=b_peak,
                        i_m_peak=i_m, i_l_start=i_l[0].a[:, 0], i_m_start=-i_m,
                        body=body_result, invalid=invalid,
-                       regime=np.full(io.shape, "CCM", dtype=object))
+                       regime=np.full(io.shape, "CCM", dtype=object),
+                       notes=["switch and rectifier voltages are before any leakage spike or ringing; "
+                              "leakage inductance is not modelled with PWM modulation"])

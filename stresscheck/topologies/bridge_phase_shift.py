@@ -510,4 +510,6 @@ def evaluate(st: Stage) -> StageResult:
     return StageResult(duty=d, grid=grid, currents=currents, v_block=v_block,
                        input_current=i_dc, winding_loss=p_wind, b_peak=b_peak,
                        i_m_peak=i_m_peak, i_l_start=i_a0, i_m_start=-i_m0, body=body,
-                       invalid=invalid, regime=np.full(io.shape, "CCM", dtype=object))
+                       invalid=invalid, regime=np.full(io.shape, "CCM", dtype=object),
+                       notes=["rectifier voltages are before any ringing; the zero-voltage transitions "
+                              "are taken as ideal (no check that the leakage energy charges C_oss)"])

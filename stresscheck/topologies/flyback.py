@@ -332,4 +332,6 @@ def evaluate(st: Stage) -> StageResult:
     return StageResult(duty=duty, grid=grid, currents=currents, v_block=v_block,
                        input_current=i_dc, winding_loss=p_wind, b_peak=b_peak,
                        i_m_peak=i_m_peak, i_l_start=np.zeros_like(duty), i_m_start=i1,
-                       invalid=invalid, regime=regime)
+                       invalid=invalid, regime=regime,
+                       notes=["switch v_peak is before the leakage-inductance spike: no clamp or snubber "
+                              "is modelled, add its allowance before signing off"])

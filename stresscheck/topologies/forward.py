@@ -395,4 +395,6 @@ def evaluate(st: Stage) -> StageResult:
     return StageResult(duty=duty, grid=grid, currents=currents, v_block=v_block,
                        input_current=i_dc, winding_loss=p_wind, b_peak=b_peak,
                        i_m_peak=i_mpk, i_l_start=i_start, i_m_start=-delta,
-                       invalid=invalid, regime=regime)
+                       invalid=invalid, regime=regime,
+                       notes=["switch and diode voltages are before any leakage spike or ringing",
+                              "b_peak is the swing from zero flux: remanence is not included"])
