@@ -6,13 +6,17 @@ where a test wants it, not to look like any product.
 
 from __future__ import annotations
 
+import copy
+
 from builders import LOSSLESS, part
 
 
 def flyback_parts(*, lossless=False, n_p=20, n_s=10, l_m="100 uH", l_m_tol=None,
                   c_out="1000 uF", c_in="20 uF", esr_out="5 mohm", esr_in="5 mohm",
-                  core_area="60 mm^2", rectifier_kind="diode"):
-    """Parts for a flyback test design {id: sheet}."""
+                  core_area="60 mm^2", rectifier_kind="diode", v_sd=None, r_sd=None):
+    """Parts for a flyback test design {id: sheet}; ``rectifier_kind="mosfet"`` adds the
+    synchronous rectifier "t-sr" (the switch's sheet, body diode ``v_sd``/``r_sd`` when
+    given) and makes "t-diode" the same MOSFET."""
     e = LOSSLESS if lossless else {}
     lm = {"nom": l_m, "tolerance": l_m_tol} if l_m_tol else l_m
     xf = {"primary_turns": n_p, "secondary_turns": n_s, "magnetizing_inductance": lm,
@@ -42,11 +46,18 @@ def flyback_parts(*, lossless=False, n_p=20, n_s=10, l_m="100 uH", l_m_tol=None,
     }
     if rectifier_kind == "mosfet":
         parts["t-diode"] = parts["t-fet"]
+        sr = copy.deepcopy(parts["t-fet"])
+        if v_sd is not None:
+            sr["electrical"]["v_sd"] = v_sd
+        if r_sd is not None:
+            sr["electrical"]["r_sd"] = r_sd
+        parts["t-sr"] = sr
     return parts
 
 
 def flyback_design(*, vin=None, vo="12 V", io=None, fs="150 kHz", surge=None, ilim=None,
-                   ambient=None, max_duty=None, name=None, **converter):
+                   ambient=None, max_duty=None, name=None, sync=False, **converter):
+    """A flyback test design; ``sync``: the rectifier is the MOSFET "t-sr" (ref Q2)."""
     doc = {
         "schema": "stresscheck.design/1",
         "converter": {"name": name or "test flyback", "topology": "flyback",
@@ -57,7 +68,8 @@ def flyback_design(*, vin=None, vo="12 V", io=None, fs="150 kHz", surge=None, il
                       "ambient_temperature": ambient or {"min": "0 degC", "max": "50 degC"}},
         "components": [
             {"ref": "Q1", "role": "switch", "part": "t-fet", "r_th_ca": "10 K/W"},
-            {"ref": "D1", "role": "rectifier", "part": "t-diode", "r_th_ca": "10 K/W"},
+            {"ref": "Q2" if sync else "D1", "role": "rectifier",
+             "part": "t-sr" if sync else "t-diode", "r_th_ca": "10 K/W"},
             {"ref": "T1", "role": "transformer", "part": "t-xfmr"},
             {"refs": ["C1"], "role": "input-capacitor", "part": "t-cin"},
             {"refs": ["C2", "C3"], "role": "output-capacitor", "part": "t-cout"},

@@ -12,12 +12,18 @@ FORWARD_TOPOLOGIES = ("forward", "two-switch-forward")
 
 def forward_parts(*, lossless=False, two_switch=False, n_p=8, n_s=3, n_r=6, l_m="150 uH",
                   l_out="10 uH", c_out="1000 uF", c_in="100 uF", esr_out="5 mohm",
-                  esr_in="5 mohm", r_reset="20 mohm", v_fet="400 V", core_area="60 mm^2"):
+                  esr_in="5 mohm", r_reset="20 mohm", v_fet="400 V", core_area="60 mm^2",
+                  sr_r_on="4 mohm", sr_v_sd="0.8 V", sr_r_sd="10 mohm",
+                  sr_lossless_body=True):
     """Parts for a forward-family test design {id: sheet}.
 
-    ``two_switch``: the transformer has no reset winding.
+    ``two_switch``: the transformer has no reset winding. ``t-sr`` is the synchronous
+    rectifier MOSFET (R_DS(on) ``sr_r_on``, body diode ``sr_v_sd`` + ``sr_r_sd``); with
+    ``lossless`` its body diode is ideal too unless ``sr_lossless_body`` is False.
     """
-    e = LOSSLESS if lossless else {}
+    e = dict(LOSSLESS) if lossless else {}
+    if lossless and sr_lossless_body:
+        e.update(v_sd="0 V", r_sd="0 ohm")
     xfmr = {"primary_turns": n_p, "secondary_turns": n_s,
             "magnetizing_inductance": l_m, "core_area": core_area,
             "r_primary": e.get("r_primary", "20 mohm"),
@@ -31,6 +37,11 @@ def forward_parts(*, lossless=False, two_switch=False, n_p=8, n_s=3, n_r=6, l_m=
                                        "t_j_max": "175 degC"},
                       {"r_ds_on": e.get("r_ds_on", "30 mohm"), "r_ds_on_tc": "0.5 %/K"},
                       {"r_th_jc": "1 K/W"}),
+        "t-sr": part("mosfet", "si", {"v_ds": "100 V", "i_d": "60 A", "i_dm": "240 A",
+                                      "t_j_max": "175 degC"},
+                     {"r_ds_on": e.get("r_ds_on", sr_r_on), "r_ds_on_tc": "0.5 %/K",
+                      "v_sd": e.get("v_sd", sr_v_sd), "r_sd": e.get("r_sd", sr_r_sd)},
+                     {"r_th_jc": "1 K/W"}),
         "t-rect": part("diode", "schottky", {"v_rrm": "100 V", "i_f_avg": "30 A",
                                              "t_j_max": "175 degC"},
                        diode_e, {"r_th_jc": "1 K/W"}),
@@ -53,8 +64,12 @@ def forward_parts(*, lossless=False, two_switch=False, n_p=8, n_s=3, n_r=6, l_m=
 
 
 def forward_design(topology="forward", *, vin=None, vo="5 V", io=None, fs="250 kHz",
-                   surge=None, ilim=None, ambient=None, name=None, extra=None):
-    """A forward-family design using the parts of :func:`forward_parts`."""
+                   surge=None, ilim=None, ambient=None, name=None, extra=None,
+                   sync=(), dead_time=None):
+    """A forward-family design using the parts of :func:`forward_parts`.
+
+    ``sync``: roles ("rectifier", "freewheel") that take the MOSFET ``t-sr``;
+    ``dead_time``: the converter's dead_time key (e.g. "100 ns")."""
     two = topology == "two-switch-forward"
     doc = {
         "schema": "stresscheck.design/1",
@@ -77,6 +92,11 @@ def forward_design(topology="forward", *, vin=None, vo="5 V", io=None, fs="250 k
             {"refs": ["C2"], "role": "input-capacitor", "part": "t-cin"},
         ],
     }
+    for comp in doc["components"]:
+        if comp["role"] in sync:
+            comp["part"] = "t-sr"
+    if dead_time is not None:
+        doc["converter"]["dead_time"] = dead_time
     if surge:
         doc["operating"]["input_surge"] = surge
     if ilim:

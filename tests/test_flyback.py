@@ -1,5 +1,6 @@
 """Flyback stresses: textbook relations in the lossless limit, the CCM/DCM boundary,
-duty limit, refusals and the shared invariants.
+duty limit, refusals and the shared invariants; the synchronous rectifier (forced
+continuous conduction, dead time with the body diode).
 
 Source for the ideal relations: R. W. Erickson and D. Maksimović, *Fundamentals of Power
 Electronics*, 2nd ed., §6.3.4 (the flyback as a transformer-isolated buck-boost) and ch. 5
@@ -277,12 +278,163 @@ def test_no_core_area_leaves_flux_uncomputed(tmp_path):
 
 # --- refusals ------------------------------------------------------------------------------
 
-def test_synchronous_rectifier_is_refused(tmp_path):
+# --- synchronous rectifier -----------------------------------------------------------------
+# A MOSFET in the rectifier role, driven complementary to the switch: forced continuous
+# conduction at every load (Erickson & Maksimović, 2nd ed., §6.3.4: the CCM relations
+# above hold wherever the magnetizing current never stops, and the channel conducting
+# both ways keeps it from stopping — from memory), the dead times with the body diode
+# by volt-second balance on the magnetizing inductance (same book, §2.2, applied to
+# the dead-time intervals — from memory).
+
+def sync_eval(tmp_path, *, parts=None, **design):
+    parts = parts or flyback_parts(lossless=True, c_in="1 F", c_out="1 F",
+                                   rectifier_kind="mosfet")
+    return run(load_design(write_case(tmp_path, flyback_design(sync=True, **design), parts)))
+
+
+def test_sync_forced_ccm_lossless(tmp_path):
+    """No dead time, lossless: V_o = V_in·n·D/(1 − D) at every load, also where a diode
+    flyback is discontinuous (0.2 A); the magnetizing ramp then dips below zero and the
+    currents are those of the trapezoid with a negative valley."""
+    ev = sync_eval(tmp_path)
+    vin, vo, io, fs = envelope(ev)
+    assert set(ev.result.regime) == {"CCM"}
+    d = ev.result.duty
+    np.testing.assert_allclose(vin * N * d / (1 - d), vo, rtol=REL)
+    mid = N * io / (1 - d)
+    ripple = vin * d / (fs * L_M)
+    i1, i2 = mid - ripple / 2, mid + ripple / 2
+    assert np.any(i1 < 0) and np.any(i1 > 0)  # the secondary current reverses at light load
+    np.testing.assert_allclose(ev.result.i_m_start, i1, rtol=REL, atol=REL * mid.max())
+    trap = (i1 ** 2 + i1 * i2 + i2 ** 2) / 3  # mean square of a ramp i1 -> i2
+    expect = {
+        ("Q1", "v_peak"): vin + vo / N,
+        ("Q2", "v_peak"): vo + N * vin,  # drain-source blocking voltage of the rectifier
+        ("Q1", "i_peak"): i2,
+        ("Q1", "i_rms"): np.sqrt(d * trap),
+        ("Q2", "i_peak"): i2 / N,
+        ("Q2", "i_rms"): np.sqrt((1 - d) * trap) / N,
+        ("C2", "i_ripple_rms"): np.sqrt((1 - d) * trap / N ** 2 - io ** 2) / 2,  # 2 caps
+        ("C1", "i_ripple_rms"): np.sqrt(d * trap - (d * mid) ** 2),
+        ("T1", "b_peak"): L_M * i2 / (20 * A_E),
+    }
+    for (ref, q), x in expect.items():
+        np.testing.assert_allclose(values(ev, ref, q), x, rtol=REL, err_msg=ref + q)
+    assert ("rectifier", 0) not in ev.result.body or np.allclose(
+        ev.result.body[("rectifier", 0)].rms(), 0.0)
+
+
+def _ramp_ms(a, b):
+    return (a * a + a * b + b * b) / 3
+
+
+def test_sync_dead_time_lossless(tmp_path):
+    """Lossless but for the body diode (v_f0 = 0.85·0.8 V, r_sd = 0), t_d = 200 ns:
+    * volt-second balance: n·V_in·D = V_o·(1 − D) + 2·t_d·fs·v_bd, so
+      D = (V_o + 2·t_d·fs·v_bd)/(V_o + n·V_in);
+    * the switch blocks V_in + (V_o + v_bd)/n (body diode at the start of the off-time);
+    * the secondary ramp falls at (V_o + v_bd)/L_s in the dead times and V_o/L_s in the
+      channel, L_s = n²·L_m, and carries I_o·Ts per period (charge balance): the
+      body-diode current is its two dead-time pieces, its loss v_bd·I_body,avg."""
+    td, v_bd = 200e-9, 0.85 * 0.8
+    parts = flyback_parts(lossless=True, c_in="1 F", c_out="1 F", rectifier_kind="mosfet",
+                          v_sd="0.8 V", r_sd="0 ohm")
+    ev = sync_eval(tmp_path, parts=parts, dead_time="200 ns",
+                   io={"min": "1.5 A", "max": "2 A"})
+    vin, vo, io, fs = envelope(ev)
+    ts = 1 / fs
+    d = (vo + 2 * td * fs * v_bd) / (vo + N * vin)
+    np.testing.assert_allclose(ev.result.duty, d, rtol=REL)
+    assert np.all(ev.result.duty > vo / (vo + N * vin))  # the dead times raise the duty
+    np.testing.assert_allclose(values(ev, "Q1", "v_peak"), vin + (vo + v_bd) / N, rtol=REL)
+    np.testing.assert_allclose(values(ev, "Q2", "v_peak"), vo + N * vin, rtol=REL)
+    ls = N ** 2 * L_M
+    t_ch = ts * (1 - d) - 2 * td
+    fall_d, fall_c = (vo + v_bd) * td / ls, vo * t_ch / ls
+    # charge: td·(s0 − fall_d/2) + t_ch·(s0 − fall_d − fall_c/2)
+    #         + td·(s0 − fall_d − fall_c − fall_d/2) = I_o·Ts
+    s0 = (io * ts + td * fall_d / 2 + t_ch * (fall_d + fall_c / 2)
+          + td * (1.5 * fall_d + fall_c)) / (2 * td + t_ch)
+    s_a = s0 - fall_d
+    s_b = s_a - fall_c
+    s_e = s_b - fall_d
+    body_avg = fs * td * (s0 - fall_d / 2 + s_b - fall_d / 2)
+    body_ms = fs * td * (_ramp_ms(s0, s_a) + _ramp_ms(s_b, s_e))
+    ch_ms = fs * t_ch * _ramp_ms(s_a, s_b)
+    body = ev.result.body[("rectifier", 0)]
+    np.testing.assert_allclose(body.mean(), body_avg, rtol=REL)
+    np.testing.assert_allclose(body.rms(), np.sqrt(body_ms), rtol=REL)
+    np.testing.assert_allclose(values(ev, "Q2", "i_peak"), s0, rtol=REL)
+    np.testing.assert_allclose(values(ev, "Q2", "i_rms"), np.sqrt(body_ms + ch_ms), rtol=REL)
+    np.testing.assert_allclose(values(ev, "Q2", "p_loss"), v_bd * body_avg, rtol=REL)
+    # every cycle the secondary returns the magnetizing current to its start value
+    np.testing.assert_allclose(N * s_e, ev.result.i_m_start, rtol=REL)
+
+
+@pytest.mark.parametrize("dead_time,io", [("0 s", {"min": "0.2 A", "max": "2 A"}),
+                                          ("100 ns", {"min": "1.2 A", "max": "2 A"})])
+def test_sync_invariants_with_losses(tmp_path, dead_time, io):
+    """Energy and charge balance with every drop, the surge and current-limit corners;
+    without dead time over the full load range (the secondary current reverses at light
+    load), with a dead time over the loads whose current stays positive."""
+    parts = flyback_parts(l_m_tol="10 %", rectifier_kind="mosfet")
+    ev = sync_eval(tmp_path, parts=parts, dead_time=dead_time, io=io, surge="90 V",
+                   ilim="2.4 A")
+    assert set(ev.result.regime) == {"CCM"}
+    assert_energy_balance(ev)
+    assert_charge_balance(ev)
+    checks = run_checks(ev, load_policy("commercial"))
+    assert_one_rating_row_per_stress(checks, ev)
+    quantities = {s.quantity for s in ev.stresses if s.ref == "Q2"}
+    assert quantities >= {"v_peak", "i_peak", "i_rms", "p_loss", "t_j"}
+    if dead_time == "0 s":
+        assert np.any(ev.result.i_m_start < 0)
+    else:
+        assert np.all(ev.result.body[("rectifier", 0)].mean() > 0)
+
+
+def test_sync_drops_raise_the_duty(tmp_path):
+    """The body-diode drop of the dead times takes reset volt-seconds: a longer dead
+    time needs a longer on-time, and the switch sees the body-diode drop reflected."""
     parts = flyback_parts(rectifier_kind="mosfet")
-    path = write_case(tmp_path, flyback_design(), parts)
-    with pytest.raises(InputError, match="mosfet in the 'rectifier' position is not "
-                                         "modelled yet.*use a diode"):
-        load_design(path)
+    io = {"min": "1.5 A", "max": "2 A"}
+    short = sync_eval(tmp_path / "a", parts=parts, dead_time="20 ns", io=io)
+    long = sync_eval(tmp_path / "b", parts=parts, dead_time="300 ns", io=io)
+    assert np.all(long.result.duty > short.result.duty)
+    assert np.all(values(long, "Q2", "p_loss") > values(short, "Q2", "p_loss"))
+    diode = run(load_design(write_case(tmp_path / "c", flyback_design(io=io),
+                                       flyback_parts())))
+    # the channel's R_DS(on) drop is far below the diode's 0.4 V: less duty than a diode
+    assert np.all(short.result.duty < diode.result.duty)
+
+
+def test_sync_light_load_with_dead_time_is_refused(tmp_path):
+    parts = flyback_parts(rectifier_kind="mosfet")
+    with pytest.raises(RegulationError, match="not positive throughout the dead times.*"
+                                              "dead_time"):
+        sync_eval(tmp_path, parts=parts, dead_time="100 ns")
+
+
+def test_sync_duty_limit_holds_the_dead_times(tmp_path):
+    """D <= 1 − 2·t_d·fs: 12 V from 20 V with n = 0.25 needs D = 0.71 (lossless); with
+    max_duty 95 % and t_d = 1 us at 150 kHz the limit is 0.70."""
+    from stresscheck.topologies import flyback
+    parts = flyback_parts(n_s=5, rectifier_kind="mosfet")
+    path = write_case(tmp_path, flyback_design(vin="20 V", io="2 A", max_duty="95 %",
+                                               sync=True, dead_time="1 us"), parts)
+    design = load_design(path)
+    np.testing.assert_allclose(flyback.duty_limit(design, np.array([150e3])), 0.7)
+    with pytest.raises(RegulationError, match=r"limit of 0\.700.*dead times"):
+        run(design)
+
+
+def test_sync_rectifier_part_is_accepted_and_diode_dead_time_refused(tmp_path):
+    ok = write_case(tmp_path / "ok", flyback_design(sync=True, dead_time="50 ns"),
+                    flyback_parts(rectifier_kind="mosfet"))
+    assert load_design(ok).dead_time == pytest.approx(50e-9)
+    bad = write_case(tmp_path / "bad", flyback_design(dead_time="50 ns"), flyback_parts())
+    with pytest.raises(InputError, match="diode rectifier has no complementary switches"):
+        load_design(bad)
 
 
 @pytest.mark.parametrize("key,value,match", [

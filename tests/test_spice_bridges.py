@@ -13,21 +13,14 @@ share of the output ripple, the exact shape of the diode curve.
 Each case is simulated at low and high line (full load, hot ambient).
 """
 
-import os
-import shutil
-
 import numpy as np
 import pytest
 
 from builders import bridge_design, bridge_parts, write_case
+from spice_support import ngspice, outside_tolerance  # noqa: F401  (ngspice: autouse)
 from stresscheck.design import load_design
 from stresscheck.engine import run
 from stresscheck.verify import TOL_AVERAGE, TOL_PEAK, compare_at
-
-HAVE_NGSPICE = shutil.which("ngspice") is not None
-REQUIRE = os.environ.get("STRESSCHECK_REQUIRE_NGSPICE") == "1"
-pytestmark = pytest.mark.skipif(not HAVE_NGSPICE and not REQUIRE,
-                                reason="ngspice not installed")
 
 CASES = [("full-bridge", "center-tap"), ("full-bridge", "full-bridge"),
          ("half-bridge", "center-tap"), ("half-bridge", "full-bridge"),
@@ -45,8 +38,6 @@ def corner_index(ev, vin):
 @pytest.mark.parametrize("line", ["low", "high"])
 @pytest.mark.parametrize("topology,rectifier", CASES)
 def test_stresses_match_ngspice(tmp_path, topology, rectifier, line):
-    if not HAVE_NGSPICE:
-        pytest.fail("STRESSCHECK_REQUIRE_NGSPICE=1 but ngspice is not installed")
     from stresscheck.spice.simulate import simulate
 
     n_s = 4 if topology == "half-bridge" else 2
@@ -61,7 +52,5 @@ def test_stresses_match_ngspice(tmp_path, topology, rectifier, line):
     assert {"v_peak", "v_reverse_peak", "i_avg", "i_rms", "i_peak", "i_ripple_rms",
             "b_peak"} <= compared
     assert all(c.tolerance in (TOL_AVERAGE, TOL_PEAK) for c in comparisons)
-    outside = [f"{c.ref} {c.quantity}: computed {c.computed:.5g}, simulated "
-               f"{c.simulated:.5g} ({100 * c.rel:+.2f} % vs ±{100 * c.tolerance:.0f} %)"
-               for c in comparisons if not c.ok]
+    outside = outside_tolerance(comparisons)
     assert not outside, "\n".join(outside)

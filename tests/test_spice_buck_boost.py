@@ -18,22 +18,16 @@ module is skipped, unless STRESSCHECK_REQUIRE_NGSPICE=1.
 
 from __future__ import annotations
 
-import json
-import os
-from pathlib import Path
-
 import numpy as np
 import pytest
 
 from builders import write_case
 from builders_buck_boost import cell_design, cell_parts
+from spice_support import (assert_reference_reproduced, keep_folder, kept_results,
+                           ngspice, report_worst)  # noqa: F401  (ngspice: autouse)
 from stresscheck.design import load_design
 from stresscheck.engine import run
-from stresscheck.spice.run import find_ngspice
 from stresscheck.verify import TOL_AVERAGE, TOL_PEAK, compare_at
-
-REFERENCE = Path(__file__).parent / "reference" / "spice"
-UPDATE = os.environ.get("STRESSCHECK_UPDATE_REFERENCE") == "1"
 
 AMBIENT = {"min": "25 degC", "max": "25 degC"}
 DEAD_TIME = "50 ns"
@@ -59,16 +53,6 @@ CASES = {
 }
 
 
-@pytest.fixture(scope="module", autouse=True)
-def ngspice():
-    exe = find_ngspice()
-    if exe is None:
-        if os.environ.get("STRESSCHECK_REQUIRE_NGSPICE") == "1":
-            pytest.fail("ngspice not found and STRESSCHECK_REQUIRE_NGSPICE=1", pytrace=False)
-        pytest.skip("ngspice not installed")
-    return exe
-
-
 def design_and_parts(topology: str, sync: bool, io: str):
     vin = ({"min": "16 V", "max": "36 V"} if topology == "buck"
            else {"min": "12 V", "max": "24 V"})
@@ -91,7 +75,7 @@ def simulated(tmp_path_factory):
             ev = run(load_design(write_case(folder, *design_and_parts(topology, sync, io))))
             vin = ev.corners["input_voltage"]
             i = int(np.argmin(vin) if line == "low" else np.argmax(vin))
-            target = (REFERENCE if UPDATE else folder) / f"{case}.cir"
+            target = keep_folder(folder) / f"{case}.cir"
             c = ev.circuit_at(i)
             _RESULTS[case] = (ev, i, c, simulate(c, keep_netlist=target), target.parent)
         return _RESULTS[case]
@@ -117,11 +101,7 @@ def test_engine_matches_ngspice(simulated, case):
     for cmp in comparisons:
         assert cmp.tolerance == (TOL_PEAK if cmp.quantity in ("i_peak", "i_ripple_rms")
                                  else TOL_AVERAGE)
-    worst = max(comparisons, key=lambda x: abs(x.rel))
-    print(f"\n{case}: {len(comparisons)} comparisons, worst {worst.ref} {worst.quantity} "
-          f"{100 * worst.rel:+.3f} %")
-    bad = [f"{x.ref} {x.quantity}: {x.computed:.6g} vs {x.simulated:.6g} ({100 * x.rel:+.2f} %)"
-           for x in comparisons if not x.ok]
+    bad = report_worst(case, comparisons)
     assert not bad, "\n".join(bad)
 
 
@@ -195,15 +175,7 @@ def test_simulation_energy_and_charge_balance(simulated, case):
 @pytest.mark.parametrize("case", list(CASES))
 def test_reference_reproduced(simulated, case):
     _, _, _, r, folder = simulated(case)
-    fresh = json.loads((folder / f"{case}.json").read_text())
+    fresh = kept_results(folder, case, netlist=False)
     assert fresh["duty"] == pytest.approx(r.duty)
-    committed = REFERENCE / f"{case}.json"
-    if not committed.is_file():
-        pytest.fail(f"{committed} missing; run with STRESSCHECK_UPDATE_REFERENCE=1")
-    ref = json.loads(committed.read_text())
     # same models and simulator: the stresses reproduce to far better than 1e-3
-    assert fresh["duty"] == pytest.approx(ref["duty"], rel=1e-3)
-    for key, quantities in ref["positions"].items():
-        for name, value in quantities.items():
-            assert fresh["positions"][key][name] == pytest.approx(value, rel=1e-3, abs=1e-6), \
-                f"{key} {name}"
+    assert_reference_reproduced(case, fresh["duty"], fresh["positions"])

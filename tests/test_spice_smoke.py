@@ -8,19 +8,14 @@ rewrite them. Without ngspice the module is skipped, unless STRESSCHECK_REQUIRE_
 
 from __future__ import annotations
 
-import json
 import math
-import os
-from pathlib import Path
 
 import numpy as np
 import pytest
 
+from spice_support import (assert_reference_reproduced, keep_folder, kept_results,
+                           ngspice)  # noqa: F401  (ngspice: autouse, skips without it)
 from stresscheck.spice.circuit import CapacitorModel, Circuit, DiodeModel, SwitchModel
-from stresscheck.spice.run import find_ngspice
-
-REFERENCE = Path(__file__).parent / "reference" / "spice"
-UPDATE = os.environ.get("STRESSCHECK_UPDATE_REFERENCE") == "1"
 
 # case -> (topology, rectifier, n_p, n_s); the half-bridge applies v_in/2 to its primary,
 # so it gets twice the turns ratio to regulate 12 V at a similar duty.
@@ -35,16 +30,6 @@ L_M, L_OUT = 200e-6, 10e-6  # [H]
 R_ON, R_P, R_S, DCR = 0.01, 0.01, 0.005, 0.005  # [ohm]
 RECT = DiodeModel(v_f0=0.4, r_d=0.01)
 BODY = DiodeModel(v_f0=0.7, r_d=0.02)
-
-
-@pytest.fixture(scope="module", autouse=True)
-def ngspice():
-    exe = find_ngspice()
-    if exe is None:
-        if os.environ.get("STRESSCHECK_REQUIRE_NGSPICE") == "1":
-            pytest.fail("ngspice not found and STRESSCHECK_REQUIRE_NGSPICE=1", pytrace=False)
-        pytest.skip("ngspice not installed")
-    return exe
 
 
 def v_primary(topology: str) -> float:
@@ -88,7 +73,7 @@ def simulated(tmp_path_factory):
 
     def get(case: str):
         if case not in _RESULTS:
-            folder = REFERENCE if UPDATE else tmp_path_factory.mktemp(case)
+            folder = keep_folder(tmp_path_factory.mktemp(case))
             c = make_circuit(case)
             _RESULTS[case] = (c, simulate(c, keep_netlist=folder / f"{case}.cir"), folder)
         return _RESULTS[case]
@@ -203,21 +188,11 @@ def test_half_bridge_split_capacitors(simulated):
 @pytest.mark.parametrize("case", list(CASES))
 def test_files_kept_and_reference_reproduced(simulated, case):
     c, r, folder = simulated(case)
-    cir, js = folder / f"{case}.cir", folder / f"{case}.json"
-    assert cir.read_text().rstrip().endswith(".end")
-    fresh = json.loads(js.read_text())
+    fresh = kept_results(folder, case)
     assert fresh["duty"] == pytest.approx(r.duty)
-    committed = REFERENCE / f"{case}.json"
-    if not committed.is_file():
-        pytest.fail(f"{committed} missing; run with STRESSCHECK_UPDATE_REFERENCE=1")
-    ref = json.loads(committed.read_text())
     # Same models and simulator: the stresses reproduce to far better than 1e-3
     # (solver round-off and ngspice version are the only differences).
-    assert fresh["duty"] == pytest.approx(ref["duty"], rel=1e-3)
-    for key, quantities in ref["positions"].items():
-        for name, value in quantities.items():
-            assert fresh["positions"][key][name] == pytest.approx(value, rel=1e-3, abs=1e-6), \
-                f"{key} {name}"
+    assert_reference_reproduced(case, fresh["duty"], fresh["positions"])
 
 
 def test_diode_model_dc_sweep():

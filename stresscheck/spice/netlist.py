@@ -184,9 +184,19 @@ def analytic_ic(c: Circuit) -> dict[str, float]:
     return ic
 
 
+def initial_conditions(c: Circuit, ic: dict | None, warm=analytic_ic) -> dict[str, float]:
+    """Initial state of a run [A, V]: ``warm(c)`` (default :func:`analytic_ic`), the keys
+    of ``ic`` taking precedence."""
+    return {**warm(c), **(ic or {})}
+
+
 class _Deck:
+    """Lines of one netlist and its :class:`Layout` (``lay``), with the element blocks
+    that the builders of every family share (the models of the module docstring)."""
+
     def __init__(self):
         self.lines: list[str] = []
+        self.lay = Layout()
 
     def add(self, line: str) -> None:
         self.lines.append(line)
@@ -203,6 +213,12 @@ class _Deck:
         self.res(f"{tag}", f"{tag}_2", cathode, d.r_d)
         return src
 
+    def diode_at(self, positions: list, tag: str, anode: str, cathode: str, d: DiodeModel,
+                 i_ref: float) -> None:
+        """A straight-line diode (:meth:`diode`, exact at ``i_ref`` [A]), recorded as
+        (offset source, anode, cathode) in ``positions``, a list of the :class:`Layout`."""
+        positions.append((self.diode(tag, anode, cathode, d, i_ref), anode, cathode))
+
     def cap(self, tag: str, plus: str, minus: str, capacitance: float, esr: float,
             v0: float) -> tuple[str, str, str, str, str]:
         """C with ESR and a sense source (plus -> ESR -> C -> sense -> minus)."""
@@ -211,74 +227,151 @@ class _Deck:
         self.add(f"v{tag} {tag}_s {minus} 0")
         return (f"v{tag}", plus, minus, f"{tag}_e", f"{tag}_s")
 
+    def inductor(self, name: str, a: str, b: str, inductance: float, dcr: float, i0: float,
+                 dcr_tag: str = "dcr", mid: str = "lo") -> None:
+        """L with its DCR: ``a`` -> ``R{dcr_tag}`` -> ``mid`` -> ``name`` -> ``b``;
+        inductance [H], DCR [ohm], initial current ``i0`` [A] from ``mid`` to ``b``."""
+        self.res(dcr_tag, a, mid, dcr)
+        self.add(f"{name} {mid} {b} {inductance:.12g} IC={i0:.12g}")
 
-def _gate(deck: _Deck, name: str, delay: float, on_time: float, period: float) -> None:
-    width = max(on_time - T_EDGE, T_EDGE)
-    deck.add(f"Vg{name} g{name} 0 PULSE(0 1 {delay:.12g} {T_EDGE:g} {T_EDGE:g} "
-             f"{width:.12g} {period:.12g})")
+    def options(self, extra: str = "") -> None:
+        """Simulator options (current tolerance :data:`ABSTOL`, then ``extra``, e.g. an
+        integration method) and the near-ideal diode model ``didl``."""
+        self.add(f".options rshunt=1e9 reltol=1e-5 abstol={ABSTOL:g}{extra}")
+        self.add(f".model didl D(IS={DIODE_IS:g} N={DIODE_N:g})")
+
+    def switch_models(self, switches, group: str = "") -> None:
+        """Switch model ``sw{group}{k}`` of each of ``switches``: R_DS(on) ``r_on`` [ohm],
+        off resistance :data:`R_OFF`, thresholds :data:`SW_VT` ± :data:`SW_VH` [V]."""
+        for k, sw in enumerate(switches):
+            self.add(f".model sw{group}{k} SW(RON={sw.r_on:.9g} ROFF={R_OFF:g} VT={SW_VT:g} "
+                     f"VH={SW_VH:g})")
+
+    def switch(self, k: int, drain: str, source: str, gate: str, sw, i_ref: float,
+               group: str = "") -> tuple[str, str, str, str]:
+        """Switch ``S{group}{k}`` (model ``sw{group}{k}``, gate node ``g{gate}``) with its
+        antiparallel body diode ``b{group}{k}`` (anode at the source, exact at ``i_ref``
+        [A]) and a 0 V sense source in the drain lead, ``vq{k}`` (``v{group}{k}`` for a
+        group). Returns (sense, drain, source, body-diode offset source)."""
+        tag = f"{group or 'q'}{k}"
+        self.add(f"v{tag} {drain} {tag}d 0")
+        self.add(f"S{group}{k} {tag}d {source} g{gate} 0 sw{group}{k} OFF")
+        body = self.diode(f"b{group}{k}", source, f"{tag}d", sw.body, i_ref)
+        return (f"v{tag}", drain, source, body)
+
+    def gate(self, name: str, delay: float, on_time: float, period: float) -> None:
+        """0/1 V gate pulse on node ``g{name}``: on from ``delay`` for ``on_time``, every
+        ``period`` [s], mid-edge to mid-edge (edges :data:`T_EDGE`)."""
+        width = max(on_time - T_EDGE, T_EDGE)
+        self.add(f"Vg{name} g{name} 0 PULSE(0 1 {delay:.12g} {T_EDGE:g} {T_EDGE:g} "
+                 f"{width:.12g} {period:.12g})")
+
+    def gate_off(self, name: str, t_off: float, off_time: float, period: float) -> None:
+        """Gate that is on at t = 0, off from ``t_off`` for ``off_time`` every ``period``
+        [s] (same edge convention as :meth:`gate`: the switch changes 0.7 ns into each
+        edge)."""
+        width = max(off_time - T_EDGE, T_EDGE)
+        self.add(f"Vg{name} g{name} 0 PULSE(1 0 {t_off:.12g} {T_EDGE:g} {T_EDGE:g} "
+                 f"{width:.12g} {period:.12g})")
+
+    def input_filter(self, c: Circuit, choke: str, ic: dict) -> None:
+        """Input: source -> choke || damping -> bus (:func:`choke_values`), and the input
+        capacitor ``ci`` (bus to ground) or, half-bridge, the split capacitors ``ct``
+        (bus to ``mid``) and ``cb`` (``mid`` to ground); initial values from ``ic``."""
+        lay = self.lay
+        l_ch, r_damp = choke_values(c, choke)
+        lay.l_choke, lay.r_damp = l_ch, r_damp
+        self.add(f"Vin vsrc 0 DC {c.v_in:.12g}")
+        self.add(f"Lch vsrc bus {l_ch:.12g} IC={ic['lch']:.12g}")
+        self.add(f"Rdamp vsrc bus {r_damp:.12g}")
+        if c.topology == "half-bridge":
+            top, bot = c.c_split
+            lay.caps[("split-capacitor", 0)] = self.cap("ct", "bus", "mid", top.capacitance,
+                                                        top.esr, ic["ctop"])
+            lay.caps[("split-capacitor", 1)] = self.cap("cb", "mid", "0", bot.capacitance,
+                                                        bot.esr, ic["cbot"])
+        else:
+            lay.caps[("input-capacitor", 0)] = self.cap("ci", "bus", "0", c.c_in.capacitance,
+                                                        c.c_in.esr, ic["cin"])
+
+    def primary(self, top: str, r: float) -> None:
+        """Primary current sense ``vp1`` from ``top`` into the dot, then the primary
+        resistance ``r`` [ohm] to the emf node ``p1``."""
+        self.add(f"vp1 {top} p1r 0")
+        self.res("p1", "p1r", "p1", r)
+
+    def magnetizing(self, undot: str, l_m: float, i0: float) -> None:
+        """Magnetizing inductance ``Lm`` across the primary emf (``p1`` -> ``undot``),
+        ``l_m`` [H] (not finite or not positive: "no Lm", a negligible 1 kH), initial
+        current ``i0`` [A]."""
+        l_m = l_m if math.isfinite(l_m) and l_m > 0 else 1e3  # "no Lm" -> negligible
+        self.lay.l_m = l_m
+        self.add(f"Lm p1 {undot} {l_m:.12g} IC={i0:.12g}")
+
+    def winding(self, tag: str, dot: str, undot: str, pu: str, ratio: float,
+                r: float) -> str:
+        """Winding ``tag`` of the ideal transformer: E source ``V(dot) − V(undot) =
+        ratio·V(p1, pu)`` in series with its resistance ``r`` [ohm] and the sense source
+        ``vw{tag}`` (into the dot), reflected to the primary by an F source drawing
+        −ratio·i. Returns the sense source."""
+        self.add(f"vw{tag} {dot} w{tag}i 0")
+        self.res(f"w{tag}", f"w{tag}i", f"w{tag}e", r)
+        self.add(f"Ew{tag} w{tag}e {undot} p1 {pu} {ratio:.12g}")
+        self.add(f"Fw{tag} p1 {pu} vw{tag} {-ratio:.12g}")
+        return f"vw{tag}"
+
+    def output(self, c: Circuit, ic: dict) -> None:
+        """Output capacitor ``co`` (``out`` to ground, initial voltage ``ic['cout']``
+        [V]) and the load resistor v_out/i_out [ohm]."""
+        lay = self.lay
+        lay.caps[("output-capacitor", 0)] = self.cap("co", "out", "0", c.c_out.capacitance,
+                                                     c.c_out.esr, ic["cout"])
+        lay.r_load = c.v_out / c.i_out
+        self.add(f"Rload out 0 {lay.r_load:.12g}")
+
+    def finish(self, ts: float, t_stop: float, t_measure: float) -> str:
+        """``.tran`` to ``t_stop`` [s] from the initial conditions (``uic``), maximum step
+        ts/:data:`STEPS_PER_PERIOD`, saving from one step before the last ``t_measure``
+        [s]; ``.end``. Returns the netlist text."""
+        t_start = max(t_stop - t_measure - ts / STEPS_PER_PERIOD, 0.0)
+        h = ts / STEPS_PER_PERIOD
+        self.add(f".tran {h:.12g} {t_stop:.12g} {t_start:.12g} {h:.12g} uic")
+        self.add(".end")
+        return "\n".join(self.lines) + "\n"
 
 
-def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
-          ic: dict | None, choke: str) -> tuple[str, Layout]:
-    """Netlist text and its :class:`Layout`; see :func:`build_netlist`."""
-    check_supported(c)
-    ts = switching_period(c)
-    ic = {**analytic_ic(c), **(ic or {})}
-    lay = Layout()
-    d = _Deck()
-    d.add(f"* stresscheck reference: {c.topology} / {c.rectifier} rectifier, "
-          f"v_in={c.v_in:g} V, v_out={c.v_out:g} V, i_out={c.i_out:g} A, "
-          f"f_sw={c.f_sw:g} Hz, duty={duty:.9f}, choke={choke}")
-    d.add(f".options rshunt=1e9 reltol=1e-5 abstol={ABSTOL:g}")
-    d.add(f".model didl D(IS={DIODE_IS:g} N={DIODE_N:g})")
-    for k, sw in enumerate(c.switches):
-        d.add(f".model sw{k} SW(RON={sw.r_on:.9g} ROFF={R_OFF:g} VT={SW_VT:g} VH={SW_VH:g})")
+#: Switch legs (drain, source, gate) of the bridge family in switch order. Gate 1 drives
+#: the first half-cycle from t = 0, gate 2 the second from Ts/2: full-bridge pairs (0, 3)
+#: and (2, 1), half-bridge high and low, push-pull 0 and 1.
+BRIDGE_LEGS = {"full-bridge": [("bus", "pa", "1"), ("pa", "0", "2"), ("bus", "pb", "2"),
+                               ("pb", "0", "1")],
+               "half-bridge": [("bus", "sw", "1"), ("sw", "0", "2")],
+               "push-pull": [("d1", "0", "1"), ("d2", "0", "2")]}
 
-    # Input: source -> choke || damping -> bus, and the input (or split) capacitors.
-    l_ch, r_damp = choke_values(c, choke)
-    lay.l_choke, lay.r_damp = l_ch, r_damp
-    d.add(f"Vin vsrc 0 DC {c.v_in:.12g}")
-    d.add(f"Lch vsrc bus {l_ch:.12g} IC={ic['lch']:.12g}")
-    d.add(f"Rdamp vsrc bus {r_damp:.12g}")
-    if c.topology == "half-bridge":
-        top, bot = c.c_split
-        lay.caps[("split-capacitor", 0)] = d.cap("ct", "bus", "mid", top.capacitance,
-                                                  top.esr, ic["ctop"])
-        lay.caps[("split-capacitor", 1)] = d.cap("cb", "mid", "0", bot.capacitance,
-                                                  bot.esr, ic["cbot"])
-    else:
-        lay.caps[("input-capacitor", 0)] = d.cap("ci", "bus", "0", c.c_in.capacitance,
-                                                  c.c_in.esr, ic["cin"])
 
-    # Gate 1 drives the first half-cycle from t = 0, gate 2 the second from Ts/2:
-    # full-bridge pairs (0, 3) and (2, 1), half-bridge high and low, push-pull 0 and 1.
-    _gate(d, "1", 0.0, duty * ts, ts)
-    _gate(d, "2", ts / 2, duty * ts, ts)
-    legs = {"full-bridge": [("bus", "pa", "1"), ("pa", "0", "2"), ("bus", "pb", "2"),
-                            ("pb", "0", "1")],
-            "half-bridge": [("bus", "sw", "1"), ("sw", "0", "2")],
-            "push-pull": [("d1", "0", "1"), ("d2", "0", "2")]}[c.topology]
-    # Switches with body diodes (anode at the source), a sense source in each drain lead.
+def bridge_switches(d: _Deck, c: Circuit, legs) -> None:
+    """Switches with body diodes (anode at the source), a sense source in each drain
+    lead; legs (drain, source, gate) in switch order. The body-diode fit is exact at
+    :data:`I_REF_FRACTION` of i_out reflected to the primary [A]."""
     i_body = I_REF_FRACTION * c.i_out * c.n_s / c.n_p
     for k, ((drain, source, gate), sw) in enumerate(zip(legs, c.switches)):
-        d.add(f"vq{k} {drain} q{k}d 0")
-        d.add(f"S{k} q{k}d {source} g{gate} 0 sw{k} OFF")
-        body = d.diode(f"b{k}", source, f"q{k}d", sw.body, i_body)
-        lay.switches.append((f"vq{k}", drain, source, body))
+        d.lay.switches.append(d.switch(k, drain, source, gate, sw, i_body))
 
-    # Transformer: reference winding (dot p1, undot pu) with Lm; E/F for the others.
+
+def bridge_transformer(d: _Deck, c: Circuit, ic: dict, lead: str = "pa") -> str:
+    """Transformer of the bridge family: reference winding (dot p1, undot pu) with Lm;
+    E/F for the second primary half (push-pull). ``lead``: the full-bridge node that
+    feeds the primary sense. Returns pu."""
+    lay = d.lay
     if c.topology == "full-bridge":
-        d.add("vp1 pa p1r 0")
-        d.res("p1", "p1r", "p1", c.r_primary)
+        d.primary(lead, c.r_primary)
         pu = "pb"
     elif c.topology == "half-bridge":
-        d.add("vp1 sw p1r 0")
-        d.res("p1", "p1r", "p1", c.r_primary)
+        d.primary("sw", c.r_primary)
         pu = "mid"
     else:
         # Half 1: bus (centre tap) -> dot p1 ... undot d1; half 2: bus ... dot d2.
-        d.add("vp1 bus p1r 0")
-        d.res("p1", "p1r", "p1", c.r_primary)
+        d.primary("bus", c.r_primary)
         pu = "d1"
         d.add("vp2 d2 p2d 0")
         d.add("Ep2 p2d p2u p1 d1 1")
@@ -286,44 +379,69 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
         d.res("p2", "p2u", "bus", c.r_primary)
         lay.windings["primary-2"] = ("vp2", c.r_primary)
     lay.windings["primary-1" if c.topology == "push-pull" else "primary"] = ("vp1", c.r_primary)
-    l_m = c.l_m if math.isfinite(c.l_m) and c.l_m > 0 else 1e3  # "no Lm" -> negligible
-    lay.l_m = l_m
-    d.add(f"Lm p1 {pu} {l_m:.12g} IC={ic['lm']:.12g}")
+    d.magnetizing(pu, c.l_m, ic["lm"])
+    return pu
+
+
+def bridge_secondaries(d: _Deck, c: Circuit, pu: str):
+    """Secondary windings of the bridge family (reference winding (p1, pu)); returns the
+    rectifier positions (anode, cathode) and the indexes of group A (conducting with the
+    first half-cycle). Center-tap and full-bridge rectifiers feed node ``rect``; the
+    current doubler's winding ends ``sa`` and ``sb`` feed its two inductors."""
     ratio = c.n_s / c.n_p
 
     def winding(k: int, dot: str, undot: str) -> None:
-        d.add(f"vw{k} {dot} w{k}i 0")
-        d.res(f"w{k}", f"w{k}i", f"w{k}e", c.r_secondary)
-        d.add(f"Ew{k} w{k}e {undot} p1 {pu} {ratio:.12g}")
-        d.add(f"Fw{k} p1 {pu} vw{k} {-ratio:.12g}")
-        lay.windings[f"secondary-{k + 1}"] = (f"vw{k}", c.r_secondary)
+        d.winding(str(k), dot, undot, pu, ratio, c.r_secondary)
+        d.lay.windings[f"secondary-{k + 1}"] = (f"vw{k}", c.r_secondary)
 
-    # Rectifier into node rect; output return is ground.
-    i_rect = I_REF_FRACTION * c.i_out
     if c.rectifier == "center-tap":
         winding(0, "sa", "0")  # V(sa) = +n·Vp
         winding(1, "0", "sb")  # V(sb) = -n·Vp
-        pins = [("sa", "rect"), ("sb", "rect")]
-    else:
+        return [("sa", "rect"), ("sb", "rect")], (0,)
+    if c.rectifier == "full-bridge":
         winding(0, "sa", "sb")
         d.add(f"Rfloat sb 0 {R_FLOAT:g}")
-        pins = [("sa", "rect"), ("sb", "rect"), ("0", "sa"), ("0", "sb")]
+        return [("sa", "rect"), ("sb", "rect"), ("0", "sa"), ("0", "sb")], (0, 3)
+    winding(0, "sa", "sb")  # current doubler
+    return [("0", "sb"), ("0", "sa")], (0,)
+
+
+def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
+          ic: dict | None, choke: str) -> tuple[str, Layout]:
+    """Netlist text and its :class:`Layout`; see :func:`build_netlist`."""
+    check_supported(c)
+    ts = switching_period(c)
+    ic = initial_conditions(c, ic)
+    d = _Deck()
+    lay = d.lay
+    d.add(f"* stresscheck reference: {c.topology} / {c.rectifier} rectifier, "
+          f"v_in={c.v_in:g} V, v_out={c.v_out:g} V, i_out={c.i_out:g} A, "
+          f"f_sw={c.f_sw:g} Hz, duty={duty:.9f}, choke={choke}")
+    d.options()
+    d.switch_models(c.switches)
+
+    # Input: source -> choke || damping -> bus, and the input (or split) capacitors.
+    d.input_filter(c, choke, ic)
+
+    # Gate 1 drives the first half-cycle from t = 0, gate 2 the second from Ts/2
+    # (switch legs: BRIDGE_LEGS).
+    d.gate("1", 0.0, duty * ts, ts)
+    d.gate("2", ts / 2, duty * ts, ts)
+    bridge_switches(d, c, BRIDGE_LEGS[c.topology])
+
+    # Transformer: reference winding (dot p1, undot pu) with Lm; E/F for the others.
+    pu = bridge_transformer(d, c, ic)
+
+    # Rectifier into node rect; output return is ground.
+    pins, _ = bridge_secondaries(d, c, pu)
+    i_rect = I_REF_FRACTION * c.i_out
     for k, ((anode, cathode), dm) in enumerate(zip(pins, c.rectifiers)):
-        lay.rectifiers.append((d.diode(f"d{k}", anode, cathode, dm, i_rect), anode, cathode))
+        d.diode_at(lay.rectifiers, f"d{k}", anode, cathode, dm, i_rect)
 
     # Output filter and load.
-    d.res("dcr", "rect", "lo", c.dcr_out)
-    d.add(f"Lout lo out {c.l_out:.12g} IC={ic['lout']:.12g}")
-    lay.caps[("output-capacitor", 0)] = d.cap("co", "out", "0", c.c_out.capacitance,
-                                               c.c_out.esr, ic["cout"])
-    lay.r_load = c.v_out / c.i_out
-    d.add(f"Rload out 0 {lay.r_load:.12g}")
-
-    t_start = max(t_stop - t_measure - ts / STEPS_PER_PERIOD, 0.0)
-    h = ts / STEPS_PER_PERIOD
-    d.add(f".tran {h:.12g} {t_stop:.12g} {t_start:.12g} {h:.12g} uic")
-    d.add(".end")
-    return "\n".join(d.lines) + "\n", lay
+    d.inductor("Lout", "rect", "out", c.l_out, c.dcr_out, ic["lout"])
+    d.output(c, ic)
+    return d.finish(ts, t_stop, t_measure), lay
 
 
 def build_netlist(c: Circuit, duty: float, t_stop: float, t_measure: float,

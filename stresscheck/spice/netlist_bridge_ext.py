@@ -25,6 +25,11 @@ Ts/2 + D·Ts (Q1 -> Q0), each switch turning on t_d after its complement turns o
 Current doubler: rectifier 0 from ground to ``sb`` (conducts while the first half-cycle
 drives ``sa`` high, and in freewheel), rectifier 1 from ground to ``sa``.
 
+Synchronous rectifiers with phase shift (center-tap or full-bridge positions): group A
+(conducting with the first half, +V_in) is gated on from t_d to Ts/2, group B from
+Ts/2 + t_d to Ts, fixed to the lagging leg (the analytic model's gating); everything
+else goes through the body diodes.
+
 Synchronous rectifiers (center-tap, full-bridge or current-doubler positions; PWM): a
 rectifier of group A (conducting with the first half-cycle: center-tap and doubler 0,
 bridge 0 and 3) is gated off from t_b before the second half-cycle's on-interval until
@@ -34,15 +39,13 @@ source is the diode's anode, its drain the cathode.
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 
 from . import netlist
 from .circuit import Circuit, DiodeModel, SwitchModel
-from .netlist import (ABSTOL, DIODE_IS, DIODE_N, I_REF_FRACTION, R_FLOAT, R_OFF,
-                      STEPS_PER_PERIOD, SW_VH, SW_VT, T_EDGE, Layout, _Deck, _gate,
-                      analytic_ic, choke_values, switching_period)
+from .netlist import (BRIDGE_LEGS, I_REF_FRACTION, Layout, _Deck, analytic_ic,
+                      bridge_secondaries, bridge_switches, bridge_transformer,
+                      initial_conditions, switching_period)
 
 TOPOLOGIES = netlist.TOPOLOGIES
 RECTIFIERS = ("center-tap", "full-bridge", "current-doubler")
@@ -74,7 +77,7 @@ def check_supported(c: Circuit) -> None:
     ------
     NotImplementedError
         Another topology; phase shift on a half-bridge or push-pull, or with a current
-        doubler or synchronous rectifiers.
+        doubler.
     ValueError
         Position counts, inductors or capacitors that do not fit; phase shift without
         leakage inductance; mixed diode and MOSFET rectifiers.
@@ -91,9 +94,9 @@ def check_supported(c: Circuit) -> None:
     if c.modulation == "phase-shift":
         if c.topology != "full-bridge":
             raise NotImplementedError("phase-shift modulation needs a full bridge")
-        if c.rectifier == "current-doubler" or sync:
+        if c.rectifier == "current-doubler":
             raise NotImplementedError("ngspice netlist for phase shift with a current "
-                                      "doubler or synchronous rectifiers not available")
+                                      "doubler not available")
         if not c.l_leak > 0:
             raise ValueError("phase-shift modulation needs l_leak > 0")
     elif c.modulation != "pwm":
@@ -133,14 +136,6 @@ def warm_start(c: Circuit, duty: float) -> dict[str, float]:
     return ic
 
 
-def _pulse_off(deck: _Deck, name: str, t_off: float, off_time: float, period: float):
-    """Gate that is on at t = 0, off from ``t_off`` for ``off_time`` every period (same
-    edge convention as ``netlist._gate``: the switch changes 0.7 ns into each edge)."""
-    width = max(off_time - T_EDGE, T_EDGE)
-    deck.add(f"Vg{name} g{name} 0 PULSE(1 0 {t_off:.12g} {T_EDGE:g} {T_EDGE:g} "
-             f"{width:.12g} {period:.12g})")
-
-
 def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
           ic: dict | None, choke: str) -> tuple[str, Layout]:
     """Netlist text and its :class:`Layout` (contract of :func:`netlist.build`)."""
@@ -149,151 +144,78 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
     ps = c.modulation == "phase-shift"
     doubler = c.rectifier == "current-doubler"
     sync = _sync(c)
-    ic = {**warm_start(c, duty), **(ic or {})}
-    lay = Layout()
+    ic = initial_conditions(c, ic, lambda c: warm_start(c, duty))
     d = _Deck()
+    lay = d.lay
     d.add(f"* stresscheck reference: {c.topology} ({c.modulation}) / {c.rectifier} "
           f"rectifier{' (synchronous)' if sync else ''}, v_in={c.v_in:g} V, "
           f"v_out={c.v_out:g} V, i_out={c.i_out:g} A, f_sw={c.f_sw:g} Hz, "
           f"duty={duty:.9f}, dead_time={c.dead_time:g} s, choke={choke}")
-    d.add(f".options rshunt=1e9 reltol=1e-5 abstol={ABSTOL:g}" + (PS_METHOD if ps else ""))
-    d.add(f".model didl D(IS={DIODE_IS:g} N={DIODE_N:g})")
-    for k, sw in enumerate(c.switches):
-        d.add(f".model sw{k} SW(RON={sw.r_on:.9g} ROFF={R_OFF:g} VT={SW_VT:g} VH={SW_VH:g})")
+    d.options(PS_METHOD if ps else "")
+    d.switch_models(c.switches)
     if sync:
-        for k, sw in enumerate(c.rectifiers):
-            d.add(f".model swr{k} SW(RON={sw.r_on:.9g} ROFF={R_OFF:g} VT={SW_VT:g} "
-                  f"VH={SW_VH:g})")
+        d.switch_models(c.rectifiers, group="r")
 
     # Input: source -> choke || damping -> bus, and the input (or split) capacitors.
-    l_ch, r_damp = choke_values(c, choke)
-    lay.l_choke, lay.r_damp = l_ch, r_damp
-    d.add(f"Vin vsrc 0 DC {c.v_in:.12g}")
-    d.add(f"Lch vsrc bus {l_ch:.12g} IC={ic['lch']:.12g}")
-    d.add(f"Rdamp vsrc bus {r_damp:.12g}")
-    if c.topology == "half-bridge":
-        top, bot = c.c_split
-        lay.caps[("split-capacitor", 0)] = d.cap("ct", "bus", "mid", top.capacitance,
-                                                  top.esr, ic["ctop"])
-        lay.caps[("split-capacitor", 1)] = d.cap("cb", "mid", "0", bot.capacitance,
-                                                  bot.esr, ic["cbot"])
-    else:
-        lay.caps[("input-capacitor", 0)] = d.cap("ci", "bus", "0", c.c_in.capacitance,
-                                                  c.c_in.esr, ic["cin"])
+    d.input_filter(c, choke, ic)
 
     # Gates and switches.
     if ps:
         t_d = c.dead_time
         half_on = ts / 2 - t_d
-        _pulse_off(d, "q0", duty * ts, ts / 2 + t_d, ts)  # Q0 on at t = 0 until D·Ts
-        _gate(d, "q1", duty * ts + t_d, half_on, ts)
-        _gate(d, "q2", ts / 2 + t_d, half_on, ts)
-        _gate(d, "q3", t_d, half_on, ts)
+        d.gate_off("q0", duty * ts, ts / 2 + t_d, ts)  # Q0 on at t = 0 until D·Ts
+        d.gate("q1", duty * ts + t_d, half_on, ts)
+        d.gate("q2", ts / 2 + t_d, half_on, ts)
+        d.gate("q3", t_d, half_on, ts)
         legs = [("bus", "pa", "q0"), ("pa", "0", "q1"), ("bus", "pb", "q2"),
                 ("pb", "0", "q3")]
     else:
         # Gate 1 drives the first half-cycle from t = 0, gate 2 the second from Ts/2.
-        _gate(d, "1", 0.0, duty * ts, ts)
-        _gate(d, "2", ts / 2, duty * ts, ts)
-        legs = {"full-bridge": [("bus", "pa", "1"), ("pa", "0", "2"), ("bus", "pb", "2"),
-                                ("pb", "0", "1")],
-                "half-bridge": [("bus", "sw", "1"), ("sw", "0", "2")],
-                "push-pull": [("d1", "0", "1"), ("d2", "0", "2")]}[c.topology]
-    i_body = I_REF_FRACTION * c.i_out * c.n_s / c.n_p
-    for k, ((drain, source, gate), sw) in enumerate(zip(legs, c.switches)):
-        d.add(f"vq{k} {drain} q{k}d 0")
-        d.add(f"S{k} q{k}d {source} g{gate} 0 sw{k} OFF")
-        body = d.diode(f"b{k}", source, f"q{k}d", sw.body, i_body)
-        lay.switches.append((f"vq{k}", drain, source, body))
+        d.gate("1", 0.0, duty * ts, ts)
+        d.gate("2", ts / 2, duty * ts, ts)
+        legs = BRIDGE_LEGS[c.topology]
+    bridge_switches(d, c, legs)
 
-    # Transformer: reference winding (dot p1, undot pu) with Lm; E/F for the others.
-    if c.topology == "full-bridge":
-        if ps:
-            d.add(f"Llk pa pl {c.l_leak:.12g} IC={ic['llk']:.12g}")
-            lay.inductors["llk"] = c.l_leak
-            d.add("vp1 pl p1r 0")
-        else:
-            d.add("vp1 pa p1r 0")
-        d.res("p1", "p1r", "p1", c.r_primary)
-        pu = "pb"
-    elif c.topology == "half-bridge":
-        d.add("vp1 sw p1r 0")
-        d.res("p1", "p1r", "p1", c.r_primary)
-        pu = "mid"
-    else:
-        d.add("vp1 bus p1r 0")
-        d.res("p1", "p1r", "p1", c.r_primary)
-        pu = "d1"
-        d.add("vp2 d2 p2d 0")
-        d.add("Ep2 p2d p2u p1 d1 1")
-        d.add("Fp2 p1 d1 vp2 -1")
-        d.res("p2", "p2u", "bus", c.r_primary)
-        lay.windings["primary-2"] = ("vp2", c.r_primary)
-    lay.windings["primary-1" if c.topology == "push-pull" else "primary"] = ("vp1", c.r_primary)
-    l_m = c.l_m if math.isfinite(c.l_m) and c.l_m > 0 else 1e3  # "no Lm" -> negligible
-    lay.l_m = l_m
-    d.add(f"Lm p1 {pu} {l_m:.12g} IC={ic['lm']:.12g}")
-    ratio = c.n_s / c.n_p
-
-    def winding(k: int, dot: str, undot: str) -> None:
-        d.add(f"vw{k} {dot} w{k}i 0")
-        d.res(f"w{k}", f"w{k}i", f"w{k}e", c.r_secondary)
-        d.add(f"Ew{k} w{k}e {undot} p1 {pu} {ratio:.12g}")
-        d.add(f"Fw{k} p1 {pu} vw{k} {-ratio:.12g}")
-        lay.windings[f"secondary-{k + 1}"] = (f"vw{k}", c.r_secondary)
+    # Transformer: reference winding (dot p1, undot pu) with Lm; E/F for the others;
+    # phase shift: the leakage inductance between the bridge node pa and the primary.
+    if ps:
+        d.add(f"Llk pa pl {c.l_leak:.12g} IC={ic['llk']:.12g}")
+        lay.inductors["llk"] = c.l_leak
+    pu = bridge_transformer(d, c, ic, lead="pl" if ps else "pa")
 
     # Rectifier positions (anode, cathode) and their group (A: first half-cycle).
-    if c.rectifier == "center-tap":
-        winding(0, "sa", "0")  # V(sa) = +n·Vp
-        winding(1, "0", "sb")  # V(sb) = -n·Vp
-        pins = [("sa", "rect"), ("sb", "rect")]
-        group_a = (0,)
-    elif c.rectifier == "full-bridge":
-        winding(0, "sa", "sb")
-        d.add(f"Rfloat sb 0 {R_FLOAT:g}")
-        pins = [("sa", "rect"), ("sb", "rect"), ("0", "sa"), ("0", "sb")]
-        group_a = (0, 3)
-    else:
-        winding(0, "sa", "sb")
-        pins = [("0", "sb"), ("0", "sa")]
-        group_a = (0,)
+    pins, group_a = bridge_secondaries(d, c, pu)
     i_rect = I_REF_FRACTION * c.i_out
-    if sync:
+    if sync and ps:
+        # group A's channels on in the first half after the lagging leg's dead time,
+        # group B's in the second: the body diodes carry the rest (commutation, dead
+        # times, a freewheel where both rectifiers conduct)
+        d.gate("ra", c.dead_time, ts / 2 - c.dead_time, ts)
+        d.gate("rb", ts / 2 + c.dead_time, ts / 2 - c.dead_time, ts)
+    elif sync:
         t_b = body_window(c, duty)
         # group A off around the second on-interval, group B around the first
-        _pulse_off(d, "ra", ts / 2 - t_b, duty * ts + 2 * t_b, ts)
-        _gate(d, "rb", duty * ts + t_b, ts - duty * ts - 2 * t_b, ts)
+        d.gate_off("ra", ts / 2 - t_b, duty * ts + 2 * t_b, ts)
+        d.gate("rb", duty * ts + t_b, ts - duty * ts - 2 * t_b, ts)
     for k, ((anode, cathode), dm) in enumerate(zip(pins, c.rectifiers)):
         if isinstance(dm, DiodeModel):
-            lay.rectifiers.append((d.diode(f"d{k}", anode, cathode, dm, i_rect), anode,
-                                   cathode))
+            d.diode_at(lay.rectifiers, f"d{k}", anode, cathode, dm, i_rect)
             continue
         gate = "ra" if k in group_a else "rb"
-        d.add(f"vr{k} {cathode} r{k}d 0")
-        d.add(f"Sr{k} r{k}d {anode} g{gate} 0 swr{k} OFF")
-        body = d.diode(f"br{k}", anode, f"r{k}d", dm.body, c.i_out / 2)
-        lay.mosfets[("rectifier", k)] = (f"vr{k}", cathode, anode, body)
+        # drain at the cathode, source at the anode
+        lay.mosfets[("rectifier", k)] = d.switch(k, cathode, anode, gate, dm, c.i_out / 2,
+                                                 group="r")
 
     # Output filter and load.
     if doubler:
-        d.res("dcr", "sa", "lo", c.dcr_out)
-        d.add(f"Lout lo out {c.l_out:.12g} IC={ic['lout']:.12g}")
-        d.res("dcr2", "sb", "lo2", c.dcr_out_2)
-        d.add(f"Lout2 lo2 out {c.l_out_2:.12g} IC={ic['lout2']:.12g}")
+        d.inductor("Lout", "sa", "out", c.l_out, c.dcr_out, ic["lout"])
+        d.inductor("Lout2", "sb", "out", c.l_out_2, c.dcr_out_2, ic["lout2"],
+                   dcr_tag="dcr2", mid="lo2")
         lay.inductors["lout2"] = c.l_out_2
     else:
-        d.res("dcr", "rect", "lo", c.dcr_out)
-        d.add(f"Lout lo out {c.l_out:.12g} IC={ic['lout']:.12g}")
-    lay.caps[("output-capacitor", 0)] = d.cap("co", "out", "0", c.c_out.capacitance,
-                                               c.c_out.esr, ic["cout"])
-    lay.r_load = c.v_out / c.i_out
-    d.add(f"Rload out 0 {lay.r_load:.12g}")
-
-    t_start = max(t_stop - t_measure - ts / STEPS_PER_PERIOD, 0.0)
-    h = ts / STEPS_PER_PERIOD
-    d.add(f".tran {h:.12g} {t_stop:.12g} {t_start:.12g} {h:.12g} uic")
-    d.add(".end")
-    return "\n".join(d.lines) + "\n", lay
+        d.inductor("Lout", "rect", "out", c.l_out, c.dcr_out, ic["lout"])
+    d.output(c, ic)
+    return d.finish(ts, t_stop, t_measure), lay
 
 
 def build_bridge(c: Circuit, duty: float, t_stop: float, t_measure: float,

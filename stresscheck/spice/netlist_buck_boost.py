@@ -43,9 +43,7 @@ import numpy as np
 
 from . import netlist
 from .circuit import Circuit, SwitchModel
-from .netlist import (ABSTOL, DIODE_IS, DIODE_N, R_OFF, STEPS_PER_PERIOD, SW_VH, SW_VT,
-                      T_EDGE, Layout, _Deck, _gate, analytic_ic, choke_values,
-                      switching_period)
+from .netlist import T_EDGE, Layout, _Deck, initial_conditions, switching_period
 
 TOPOLOGIES = ("buck", "boost")
 
@@ -103,72 +101,47 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
     check_supported(c)
     ts = switching_period(c)
     td = dead_time(c)
-    ic = {**analytic_ic(c), **(ic or {})}
-    lay = Layout()
+    ic = initial_conditions(c, ic)
     d = _Deck()
+    lay = d.lay
     p = passive_position(c)
     kind = "synchronous" if synchronous(c) else "diode"
     d.add(f"* stresscheck reference: {c.topology}, {kind}, v_in={c.v_in:g} V, "
           f"v_out={c.v_out:g} V, i_out={c.i_out:g} A, f_sw={c.f_sw:g} Hz, "
           f"dead_time={td:g} s, duty={duty:.9f}, regime={c.regime}, choke={choke}")
-    d.add(f".options rshunt=1e9 reltol=1e-5 abstol={ABSTOL:g}")
-    d.add(f".model didl D(IS={DIODE_IS:g} N={DIODE_N:g})")
-    fets = [c.switches[0]] + ([p] if synchronous(c) else [])
-    for k, sw in enumerate(fets):
-        d.add(f".model sw{k} SW(RON={sw.r_on:.9g} ROFF={R_OFF:g} VT={SW_VT:g} VH={SW_VH:g})")
+    d.options()
+    d.switch_models([c.switches[0]] + ([p] if synchronous(c) else []))
 
     # Input: source -> choke || damping -> bus, and the input capacitors.
-    l_ch, r_damp = choke_values(c, choke)
-    lay.l_choke, lay.r_damp = l_ch, r_damp
-    d.add(f"Vin vsrc 0 DC {c.v_in:.12g}")
-    d.add(f"Lch vsrc bus {l_ch:.12g} IC={ic['lch']:.12g}")
-    d.add(f"Rdamp vsrc bus {r_damp:.12g}")
-    lay.caps[("input-capacitor", 0)] = d.cap("ci", "bus", "0", c.c_in.capacitance,
-                                              c.c_in.esr, ic["cin"])
+    d.input_filter(c, choke, ic)
 
     # Gates: the switch from t = 0 for duty·Ts; the synchronous MOSFET in between, one
     # dead time after the switch turns off until one dead time before it turns on.
-    _gate(d, "1", 0.0, duty * ts, ts)
+    d.gate("1", 0.0, duty * ts, ts)
     if synchronous(c):
-        _gate(d, "2", duty * ts + td, ts - duty * ts - 2 * td, ts)
+        d.gate("2", duty * ts + td, ts - duty * ts - 2 * td, ts)
     i_ref = 0.75 * inductor_current(c)  # the diode fits are exact near the mean current
-
-    def mosfet(k: int, drain: str, source: str, gate: str, sw: SwitchModel):
-        d.add(f"vq{k} {drain} q{k}d 0")
-        d.add(f"S{k} q{k}d {source} g{gate} 0 sw{k} OFF")
-        body = d.diode(f"b{k}", source, f"q{k}d", sw.body, i_ref)
-        return (f"vq{k}", drain, source, body)
 
     if c.topology == "buck":
         node = "rect"
-        lay.switches.append(mosfet(0, "bus", node, "1", c.switches[0]))
+        lay.switches.append(d.switch(0, "bus", node, "1", c.switches[0], i_ref))
         if synchronous(c):
-            lay.mosfets[("freewheel", 0)] = mosfet(1, node, "0", "2", p)
+            lay.mosfets[("freewheel", 0)] = d.switch(1, node, "0", "2", p, i_ref)
         else:
-            lay.freewheels.append((d.diode("f0", "0", node, p, i_ref), "0", node))
-        d.res("dcr", node, "lo", c.dcr_out)
-        d.add(f"Lout lo out {c.l_out:.12g} IC={ic['lout']:.12g}")
+            d.diode_at(lay.freewheels, "f0", "0", node, p, i_ref)
+        d.inductor("Lout", node, "out", c.l_out, c.dcr_out, ic["lout"])
     else:
         node = "sw"
-        d.res("dcr", "bus", "li", c.dcr_out)
-        d.add(f"Lout li {node} {c.l_out:.12g} IC={ic['lout']:.12g}")
-        lay.switches.append(mosfet(0, node, "0", "1", c.switches[0]))
+        d.inductor("Lout", "bus", node, c.l_out, c.dcr_out, ic["lout"], mid="li")
+        lay.switches.append(d.switch(0, node, "0", "1", c.switches[0], i_ref))
         if synchronous(c):
-            lay.mosfets[("rectifier", 0)] = mosfet(1, "out", node, "2", p)
+            lay.mosfets[("rectifier", 0)] = d.switch(1, "out", node, "2", p, i_ref)
         else:
-            lay.rectifiers.append((d.diode("d0", node, "out", p, i_ref), node, "out"))
+            d.diode_at(lay.rectifiers, "d0", node, "out", p, i_ref)
 
     # Output capacitors and load.
-    lay.caps[("output-capacitor", 0)] = d.cap("co", "out", "0", c.c_out.capacitance,
-                                               c.c_out.esr, ic["cout"])
-    lay.r_load = c.v_out / c.i_out
-    d.add(f"Rload out 0 {lay.r_load:.12g}")
-
-    t_start = max(t_stop - t_measure - ts / STEPS_PER_PERIOD, 0.0)
-    h = ts / STEPS_PER_PERIOD
-    d.add(f".tran {h:.12g} {t_stop:.12g} {t_start:.12g} {h:.12g} uic")
-    d.add(".end")
-    return "\n".join(d.lines) + "\n", lay
+    d.output(c, ic)
+    return d.finish(ts, t_stop, t_measure), lay
 
 
 def boost_slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):

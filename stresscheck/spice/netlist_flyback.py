@@ -1,4 +1,5 @@
-"""ngspice transient netlists of one corner of a flyback converter (diode rectifier).
+"""ngspice transient netlists of one corner of a flyback converter (diode rectifier, or a
+synchronous rectifier MOSFET with dead time).
 
 Models as in :mod:`stresscheck.spice.netlist` and the project's ngspice notes: an ``S``
 switch with an antiparallel body diode, a straight-line rectifier diode (offset source +
@@ -11,7 +12,13 @@ primary by an F source drawing −(N_s/N_p)·i_s. While the switch conducts, the
 ``sa`` sits at −(N_s/N_p)·V(p1, pd) and the rectifier blocks; when it opens, the
 magnetizing current has nowhere to go but into the secondary, through the rectifier:
 the secondary carries current only while the switch is off, and the diode ends it at
-zero in discontinuous conduction. Leakage inductance is left out, like in the analytic
+zero in discontinuous conduction. A synchronous rectifier (``c.rectifiers[0]`` a
+:class:`SwitchModel`) is an ``S`` switch with its body diode (anode at the source ``sa``,
+cathode at the drain ``out``, the place of the rectifier diode), gated complementary to
+the primary switch with ``c.dead_time`` between the gates: on one dead time after the
+switch turns off, off one dead time before it turns on again; its body diode carries
+the secondary current in the dead times, and its channel conducts both ways (forced
+continuous conduction). Leakage inductance is left out, like in the analytic
 model (stresses "before any spike"; no clamp or snubber is modelled).
 
 Element names are those of :mod:`stresscheck.spice.netlist` (same :class:`Layout`):
@@ -23,6 +30,9 @@ Element names are those of :mod:`stresscheck.spice.netlist` (same :class:`Layout
 ``lm``                  magnetizing inductance, from ``p1`` (dot, after R_p) to ``pd``
 ``vw0``                 secondary current sense, from ground (dot) into the winding
 ``vd0``                 offset source of the rectifier, anode ``sa``, cathode ``out``
+``vq1``                 synchronous rectifier: sense source in its drain lead from
+                        ``out``, source at ``sa``, listed in ``Layout.mosfets`` under
+                        ("rectifier", 0); ``vb1`` its body-diode offset source
 ``vco`` / ``vci``       output / input capacitor current sense (into the capacitor)
 ``lch``                 input choke (``vsrc`` -> ``bus``)
 ======================  ==========================================================
@@ -41,10 +51,8 @@ import math
 import numpy as np
 
 from . import netlist
-from .circuit import Circuit, DiodeModel
-from .netlist import (ABSTOL, DIODE_IS, DIODE_N, R_OFF, STEPS_PER_PERIOD, SW_VH, SW_VT,
-                      T_EDGE, Layout, _Deck, _gate, analytic_ic, choke_values,
-                      switching_period)
+from .circuit import Circuit, DiodeModel, SwitchModel
+from .netlist import T_EDGE, Layout, _Deck, initial_conditions, switching_period
 
 TOPOLOGIES = ("flyback",)
 #: The magnetizing current counts as continuous when its minimum over a period is above
@@ -58,7 +66,8 @@ def check_supported(c: Circuit) -> None:
     Raises
     ------
     NotImplementedError
-        Another topology, or a MOSFET rectifier (synchronous rectifiers are not modelled).
+        Another topology, a rectifier that is neither a diode nor a MOSFET, or a
+        synchronous rectifier without dead time.
     ValueError
         Position counts, magnetizing inductance or capacitors that do not fit.
     """
@@ -68,17 +77,36 @@ def check_supported(c: Circuit) -> None:
     if len(c.switches) != 1 or len(c.rectifiers) != 1:
         raise ValueError(f"a flyback needs 1 switch and 1 rectifier, got "
                          f"{len(c.switches)} and {len(c.rectifiers)}")
-    if not isinstance(c.rectifiers[0], DiodeModel):
-        raise NotImplementedError("synchronous rectifiers are not modelled for the flyback")
+    if not isinstance(c.rectifiers[0], (DiodeModel, SwitchModel)):
+        raise NotImplementedError("a flyback rectifier is a diode or a synchronous MOSFET")
+    if isinstance(c.rectifiers[0], SwitchModel) and not c.dead_time > 0:
+        # both gates would switch at the same instant: the ideal switches then overlap
+        # through the transformer and ngspice's time step collapses (runs do not finish)
+        raise NotImplementedError("a synchronous flyback without dead time is not "
+                                  "simulated (the gates of the switch and the rectifier "
+                                  "would switch at the same instant); give the dead time")
     if not (math.isfinite(c.l_m) and 0 < c.l_m < 1.0):
         raise ValueError(f"a flyback needs its magnetizing inductance, got l_m = {c.l_m!r}")
     if c.c_out is None or c.c_in is None:
         raise ValueError("a flyback needs c_in and c_out")
 
 
+def synchronous(c: Circuit) -> bool:
+    """True where the rectifier is a MOSFET (synchronous rectifier)."""
+    return isinstance(c.rectifiers[0], SwitchModel)
+
+
+def dead_time(c: Circuit) -> float:
+    """Dead time between the two gates [s]; none with a diode rectifier."""
+    return c.dead_time if synchronous(c) else 0.0
+
+
 def duty_limit(c: Circuit) -> float:
     """Largest duty ratio of the circuit [1]: the switch must open in each period for
-    the secondary to conduct at all; less the gate edges."""
+    the secondary to conduct at all; less the gate edges and, synchronous, the two dead
+    times (the rectifier MOSFET keeps a minimal pulse)."""
+    if synchronous(c):
+        return 1.0 - 2 * (dead_time(c) + 2 * T_EDGE) * c.f_sw
     return 1.0 - 4 * T_EDGE * c.f_sw
 
 
@@ -96,63 +124,48 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
     """Netlist text and its :class:`Layout` (contract of :func:`netlist.build`)."""
     check_supported(c)
     ts = switching_period(c)
-    ic = {**analytic_ic(c), **(ic or {})}
-    lay = Layout()
+    ic = initial_conditions(c, ic)
     d = _Deck()
-    d.add(f"* stresscheck reference: flyback, diode rectifier, v_in={c.v_in:g} V, "
+    lay = d.lay
+    sync, td = synchronous(c), dead_time(c)
+    kind = f"synchronous rectifier, dead_time={td:g} s" if sync else "diode rectifier"
+    d.add(f"* stresscheck reference: flyback, {kind}, v_in={c.v_in:g} V, "
           f"v_out={c.v_out:g} V, i_out={c.i_out:g} A, f_sw={c.f_sw:g} Hz, "
           f"duty={duty:.9f}, regime={c.regime}, choke={choke}")
-    d.add(f".options rshunt=1e9 reltol=1e-5 abstol={ABSTOL:g}")
-    d.add(f".model didl D(IS={DIODE_IS:g} N={DIODE_N:g})")
+    d.options()
     (sw,) = c.switches
-    d.add(f".model sw0 SW(RON={sw.r_on:.9g} ROFF={R_OFF:g} VT={SW_VT:g} VH={SW_VH:g})")
+    d.switch_models(c.switches + ([c.rectifiers[0]] if sync else []))
 
     # Input: source -> choke || damping -> bus, and the input capacitors.
-    l_ch, r_damp = choke_values(c, choke)
-    lay.l_choke, lay.r_damp = l_ch, r_damp
-    d.add(f"Vin vsrc 0 DC {c.v_in:.12g}")
-    d.add(f"Lch vsrc bus {l_ch:.12g} IC={ic['lch']:.12g}")
-    d.add(f"Rdamp vsrc bus {r_damp:.12g}")
-    lay.caps[("input-capacitor", 0)] = d.cap("ci", "bus", "0", c.c_in.capacitance,
-                                              c.c_in.esr, ic["cin"])
+    d.input_filter(c, choke, ic)
 
     # Switch from the primary's undotted end to ground, on from t = 0 for duty·Ts.
     n = c.n_s / c.n_p
-    _gate(d, "1", 0.0, duty * ts, ts)
-    d.add("vq0 pd q0d 0")
-    d.add("S0 q0d 0 g1 0 sw0 OFF")
-    body = d.diode("b0", "0", "q0d", sw.body, n * c.i_out / max(1.0 - duty, 1e-3))
-    lay.switches.append(("vq0", "pd", "0", body))
+    d.gate("1", 0.0, duty * ts, ts)
+    lay.switches.append(d.switch(0, "pd", "0", "1", sw, n * c.i_out / max(1.0 - duty, 1e-3)))
 
     # Primary (dot at the bus) with its resistance, the magnetizing inductance across
-    # the emf (p1, pd).
-    d.add("vp1 bus p1r 0")
-    d.res("p1", "p1r", "p1", c.r_primary)
+    # the emf (p1, pd); check_supported ensures 0 < l_m < 1 H.
+    d.primary("bus", c.r_primary)
     lay.windings["primary"] = ("vp1", c.r_primary)
-    lay.l_m = c.l_m
-    d.add(f"Lm p1 pd {c.l_m:.12g} IC={ic['lm']:.12g}")
+    d.magnetizing("pd", c.l_m, ic["lm"])
 
     # Secondary: dot at ground, so V(sa) = −n·V(p1, pd) at zero current; rectifier
     # from sa to the output.
-    d.add("vw0 0 w0i 0")
-    d.res("w0", "w0i", "w0e", c.r_secondary)
-    d.add(f"Ew0 w0e sa p1 pd {n:.12g}")
-    d.add(f"Fw0 p1 pd vw0 {-n:.12g}")
+    d.winding("0", "0", "sa", "pd", n, c.r_secondary)
     lay.windings["secondary-1"] = ("vw0", c.r_secondary)
     i_ref = _rectifier_ref_current(c, duty)
-    lay.rectifiers.append((d.diode("d0", "sa", "out", c.rectifiers[0], i_ref), "sa", "out"))
+    if sync:
+        # drain at the output, source at the winding; on one dead time after the switch
+        # turns off until one dead time before it turns on again
+        d.gate("2", duty * ts + td, ts - duty * ts - 2 * td, ts)
+        lay.mosfets[("rectifier", 0)] = d.switch(1, "out", "sa", "2", c.rectifiers[0], i_ref)
+    else:
+        d.diode_at(lay.rectifiers, "d0", "sa", "out", c.rectifiers[0], i_ref)
 
     # Output capacitors and load.
-    lay.caps[("output-capacitor", 0)] = d.cap("co", "out", "0", c.c_out.capacitance,
-                                               c.c_out.esr, ic["cout"])
-    lay.r_load = c.v_out / c.i_out
-    d.add(f"Rload out 0 {lay.r_load:.12g}")
-
-    t_start = max(t_stop - t_measure - ts / STEPS_PER_PERIOD, 0.0)
-    h = ts / STEPS_PER_PERIOD
-    d.add(f".tran {h:.12g} {t_stop:.12g} {t_start:.12g} {h:.12g} uic")
-    d.add(".end")
-    return "\n".join(d.lines) + "\n", lay
+    d.output(c, ic)
+    return d.finish(ts, t_stop, t_measure), lay
 
 
 def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
@@ -174,12 +187,14 @@ def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
 
         L_ch·di_ch/dt = V_in − v_bus
         C_in·dv_bus/dt = i_ch + (V_in − v_bus)/R_damp − I_draw
-    - CCM (the simulated magnetizing current stays above ``CCM_SHARE`` of its peak),
-      I_draw = D·i:
+    - CCM (the simulated magnetizing current stays above ``CCM_SHARE`` of its peak, or
+      a synchronous rectifier, forced continuous at every load), I_draw = D·i:
         L_m·di/dt = D·(v_bus − R_a·i) − (1 − D)·(v + v_f0 + R_b·i/n)/n
         C·dv/dt   = (1 − D)·i/n − v/R
-      R_a = R_on + R_p + ESR_in, R_b = r_d + R_s + ESR_out. A lightly loaded output
-      (quality factor of 20 or more) rings for thousands of periods otherwise.
+      R_a = R_on + R_p + ESR_in, R_b = r_d + R_s + ESR_out (synchronous: R_DS(on) of
+      the rectifier in place of r_d; the dead times left out of this step). A lightly
+      loaded output (quality factor of 20 or more) rings for thousands of periods
+      otherwise.
     - DCM: the magnetizing current starts from zero every period, so it is no state; the
       energy per cycle goes with v_bus², I_draw = v_bus·D²·Ts/(2·L_m) with v_bus, and the
       secondary's mean current I_s with v_bus²/(v + v_f0):
@@ -210,9 +225,10 @@ def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
     rows = [[0.0, -1.0 / lay.l_choke], [1.0 / c_in, -1.0 / (lay.r_damp * c_in)]]
     drift = [di_ch, dv_bus]
     keys = ["lch", "cin"]
-    if np.min(i_m[last]) > CCM_SHARE * np.max(i_m[last]):
+    if synchronous(c) or np.min(i_m[last]) > CCM_SHARE * np.max(i_m[last]):
+        r_rect = rect.r_on if synchronous(c) else rect.r_d
         r_a = c.switches[0].r_on + c.r_primary + c.c_in.esr
-        r_b = rect.r_d + c.r_secondary + c.c_out.esr
+        r_b = r_rect + c.r_secondary + c.c_out.esr
         rows = [r + [0.0, 0.0] for r in rows]
         rows[1][2] = -duty / c_in
         rows.append([0.0, duty / lay.l_m, -(duty * r_a + a * r_b / n ** 2) / lay.l_m,

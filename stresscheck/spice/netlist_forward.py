@@ -2,7 +2,12 @@
 
 Topologies: ``forward`` (one switch, reset winding and reset diode) and
 ``two-switch-forward`` (two switches gated together, two clamp diodes); diode rectifier
-(forward diode = ``rectifiers[0]``, freewheel diode = ``freewheels[0]``).
+(forward diode = ``rectifiers[0]``, freewheel diode = ``freewheels[0]``), or a
+synchronous rectifier: a :class:`SwitchModel` in either or both positions (``S`` switch
+with its body diode in the direction of the diode it replaces). The forward MOSFET is
+gated with the primary switch (gate ``g1``); the freewheel MOSFET complementary to it
+(gate ``g2``), one ``dead_time`` after the switch turns off until one ``dead_time``
+before it turns on, its body diode carrying the inductor current in between.
 
 Models as in :mod:`stresscheck.spice.netlist` and the project's ngspice notes: ``S``
 switches with an antiparallel body diode, straight-line diodes, L with DCR, C with ESR
@@ -27,6 +32,11 @@ Element names are those of :mod:`stresscheck.spice.netlist` (same :class:`Layout
 ``vwr``                 reset winding current sense, into its dot (from ground)
 ======================  ==========================================================
 
+Synchronous rectifiers (listed in ``Layout.mosfets``): forward MOSFET ``Ssr0``, drain
+sense ``vsr0`` from ``rect``, source at ``sa``, body diode offset ``vbsr0``; freewheel
+MOSFET ``Ssf0``, drain sense ``vsf0`` from ``rect``, source at ground, body diode
+``vbsf0``.
+
 Switches: single switch ``vq0`` from the primary's undotted end ``pd`` to ground.
 Two-switch: ``vq0`` from ``bus`` to ``pa``, ``vq1`` from ``pb`` to ground. The
 forward diode ``vd0`` goes from the secondary dot ``sa`` to ``rect``; the secondary's
@@ -35,13 +45,9 @@ undotted end is ground.
 
 from __future__ import annotations
 
-import math
-
-from .circuit import Circuit
+from .circuit import Circuit, SwitchModel
 from . import netlist
-from .netlist import (ABSTOL, DIODE_IS, DIODE_N, R_OFF, STEPS_PER_PERIOD, SW_VH, SW_VT,
-                      T_EDGE, Layout, _Deck, _gate, analytic_ic, choke_values,
-                      switching_period)
+from .netlist import T_EDGE, Layout, _Deck, initial_conditions, switching_period
 
 TOPOLOGIES = ("forward", "two-switch-forward")
 #: Integration method. In the idle interval the magnetizing inductance sits in series with
@@ -59,8 +65,7 @@ def check_supported(c: Circuit) -> None:
     Raises
     ------
     NotImplementedError
-        Another topology, or a MOSFET in a rectifier position (synchronous rectifiers
-        are not modelled).
+        Another topology.
     ValueError
         Position counts, turns or capacitors that do not fit the topology.
     """
@@ -74,8 +79,6 @@ def check_supported(c: Circuit) -> None:
         raise ValueError(f"{c.topology} needs {n_sw} switch(es), 1 rectifier, 1 freewheel "
                          f"and {n_rst} reset diode(s); got {len(c.switches)}, "
                          f"{len(c.rectifiers)}, {len(c.freewheels)} and {len(c.resets)}")
-    if any(hasattr(d, "r_on") for d in c.rectifiers + c.freewheels):
-        raise NotImplementedError("synchronous rectifiers are not modelled for the forward")
     if not two and not c.n_r:
         raise ValueError("a single-switch forward needs n_r (reset winding turns)")
     if c.c_out is None or c.c_in is None:
@@ -88,7 +91,10 @@ def duty_limit(c: Circuit) -> float:
     Maksimović, Fundamentals of Power Electronics, 2nd ed., §6.3.3 — from memory), less
     the gate edges."""
     limit = 0.5 if c.topology == "two-switch-forward" else c.n_p / (c.n_p + c.n_r)
-    return limit - 2 * T_EDGE * c.f_sw
+    limit -= 2 * T_EDGE * c.f_sw
+    if isinstance(c.freewheels[0], SwitchModel):  # the off-time holds two dead times
+        limit = min(limit, 1.0 - 2 * (c.dead_time + T_EDGE) * c.f_sw)
+    return limit
 
 
 def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
@@ -97,52 +103,43 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
     check_supported(c)
     two = c.topology == "two-switch-forward"
     ts = switching_period(c)
-    ic = {**analytic_ic(c), **(ic or {})}
-    lay = Layout()
+    ic = initial_conditions(c, ic)
     d = _Deck()
-    d.add(f"* stresscheck reference: {c.topology}, diode rectifier, v_in={c.v_in:g} V, "
+    lay = d.lay
+    sr, sf = (isinstance(x[0], SwitchModel) for x in (c.rectifiers, c.freewheels))
+    kind = {(False, False): "diode rectifier", (True, False): "synchronous forward rectifier",
+            (False, True): "synchronous freewheel",
+            (True, True): "synchronous rectifiers"}[(sr, sf)]
+    td = c.dead_time if sf else 0.0
+    d.add(f"* stresscheck reference: {c.topology}, {kind}, v_in={c.v_in:g} V, "
           f"v_out={c.v_out:g} V, i_out={c.i_out:g} A, f_sw={c.f_sw:g} Hz, "
-          f"duty={duty:.9f}, regime={c.regime}, choke={choke}")
-    d.add(f".options rshunt=1e9 reltol=1e-5 abstol={ABSTOL:g} method={METHOD}")
-    d.add(f".model didl D(IS={DIODE_IS:g} N={DIODE_N:g})")
-    for k, sw in enumerate(c.switches):
-        d.add(f".model sw{k} SW(RON={sw.r_on:.9g} ROFF={R_OFF:g} VT={SW_VT:g} VH={SW_VH:g})")
+          + (f"dead_time={td:g} s, " if sf else "")
+          + f"duty={duty:.9f}, regime={c.regime}, choke={choke}")
+    d.options(f" method={METHOD}")
+    d.switch_models(c.switches)
+    if sr:
+        d.switch_models(c.rectifiers, group="sr")
+    if sf:
+        d.switch_models(c.freewheels, group="sf")
 
     # Input: source -> choke || damping -> bus, and the input capacitors.
-    l_ch, r_damp = choke_values(c, choke)
-    lay.l_choke, lay.r_damp = l_ch, r_damp
-    d.add(f"Vin vsrc 0 DC {c.v_in:.12g}")
-    d.add(f"Lch vsrc bus {l_ch:.12g} IC={ic['lch']:.12g}")
-    d.add(f"Rdamp vsrc bus {r_damp:.12g}")
-    lay.caps[("input-capacitor", 0)] = d.cap("ci", "bus", "0", c.c_in.capacitance,
-                                              c.c_in.esr, ic["cin"])
+    d.input_filter(c, choke, ic)
 
     # One gate drives every switch, on from t = 0 for duty·Ts.
-    _gate(d, "1", 0.0, duty * ts, ts)
+    d.gate("1", 0.0, duty * ts, ts)
     n = c.n_s / c.n_p
     i_body = c.i_out * n
     legs = [("bus", "pa"), ("pb", "0")] if two else [("pd", "0")]
     for k, ((drain, source), sw) in enumerate(zip(legs, c.switches)):
-        d.add(f"vq{k} {drain} q{k}d 0")
-        d.add(f"S{k} q{k}d {source} g1 0 sw{k} OFF")
-        body = d.diode(f"b{k}", source, f"q{k}d", sw.body, i_body)
-        lay.switches.append((f"vq{k}", drain, source, body))
+        lay.switches.append(d.switch(k, drain, source, "1", sw, i_body))
 
     # Primary (dot p_top -> undot pu) with its resistance, the magnetizing inductance
     # across the emf (p1, pu).
     p_top, pu = ("pa", "pb") if two else ("bus", "pd")
-    d.add(f"vp1 {p_top} p1r 0")
-    d.res("p1", "p1r", "p1", c.r_primary)
+    d.primary(p_top, c.r_primary)
     lay.windings["primary"] = ("vp1", c.r_primary)
-    l_m = c.l_m if math.isfinite(c.l_m) and c.l_m > 0 else 1e3  # "no Lm" -> negligible
-    lay.l_m = l_m
-    d.add(f"Lm p1 {pu} {l_m:.12g} IC={ic['lm']:.12g}")
-
-    def winding(tag: str, dot: str, undot: str, ratio: float, r: float) -> None:
-        d.add(f"vw{tag} {dot} w{tag}i 0")
-        d.res(f"w{tag}", f"w{tag}i", f"w{tag}e", r)
-        d.add(f"Ew{tag} w{tag}e {undot} p1 {pu} {ratio:.12g}")
-        d.add(f"Fw{tag} p1 {pu} vw{tag} {-ratio:.12g}")
+    d.magnetizing(pu, c.l_m, ic["lm"])
+    l_m = lay.l_m
 
     # Reset: winding from ground (dot) to wru, diode to the bus; or the two clamp diodes.
     v_mag = c.v_in * duty * ts / l_m  # magnetizing peak, for the diode offsets
@@ -151,34 +148,32 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
         pins = [("0", "pa"), ("pb", "bus")]
     else:
         ratio_r = c.n_r / c.n_p
-        winding("r", "0", "wru", ratio_r, c.r_reset)
+        d.winding("r", "0", "wru", pu, ratio_r, c.r_reset)
         lay.windings["reset"] = ("vwr", c.r_reset)
         i_reset = v_mag / ratio_r / 2
         pins = [("wru", "bus")]
     for k, ((anode, cathode), dm) in enumerate(zip(pins, c.resets)):
-        lay.resets.append((d.diode(f"r{k}", anode, cathode, dm, i_reset), anode, cathode))
+        d.diode_at(lay.resets, f"r{k}", anode, cathode, dm, i_reset)
 
     # Secondary (dot sa, undot ground), forward and freewheel diodes into node rect.
-    winding("0", "sa", "0", n, c.r_secondary)
+    d.winding("0", "sa", "0", pu, n, c.r_secondary)
     lay.windings["secondary-1"] = ("vw0", c.r_secondary)
-    lay.rectifiers.append((d.diode("d0", "sa", "rect", c.rectifiers[0], c.i_out), "sa",
-                           "rect"))
-    lay.freewheels.append((d.diode("f0", "0", "rect", c.freewheels[0], c.i_out), "0",
-                           "rect"))
+    if sr:  # body diode: the idle clamp current only (a small fraction of i_out)
+        lay.mosfets[("rectifier", 0)] = d.switch(0, "rect", "sa", "1", c.rectifiers[0],
+                                                 0.05 * c.i_out, group="sr")
+    else:
+        d.diode_at(lay.rectifiers, "d0", "sa", "rect", c.rectifiers[0], c.i_out)
+    if sf:
+        d.gate("2", duty * ts + td, ts - duty * ts - 2 * td, ts)
+        lay.mosfets[("freewheel", 0)] = d.switch(0, "rect", "0", "2", c.freewheels[0],
+                                                 c.i_out, group="sf")
+    else:
+        d.diode_at(lay.freewheels, "f0", "0", "rect", c.freewheels[0], c.i_out)
 
     # Output filter and load.
-    d.res("dcr", "rect", "lo", c.dcr_out)
-    d.add(f"Lout lo out {c.l_out:.12g} IC={ic['lout']:.12g}")
-    lay.caps[("output-capacitor", 0)] = d.cap("co", "out", "0", c.c_out.capacitance,
-                                               c.c_out.esr, ic["cout"])
-    lay.r_load = c.v_out / c.i_out
-    d.add(f"Rload out 0 {lay.r_load:.12g}")
-
-    t_start = max(t_stop - t_measure - ts / STEPS_PER_PERIOD, 0.0)
-    h = ts / STEPS_PER_PERIOD
-    d.add(f".tran {h:.12g} {t_stop:.12g} {t_start:.12g} {h:.12g} uic")
-    d.add(".end")
-    return "\n".join(d.lines) + "\n", lay
+    d.inductor("Lout", "rect", "out", c.l_out, c.dcr_out, ic["lout"])
+    d.output(c, ic)
+    return d.finish(ts, t_stop, t_measure), lay
 
 
 netlist.BUILDERS.update(dict.fromkeys(TOPOLOGIES, build))

@@ -116,11 +116,6 @@ def layout(design) -> Layout:
             raise InputError(path, "converter.rectifier", "phase-shift modulation with a "
                              "current-doubler rectifier is not modelled yet; use a "
                              "center-tap or full-bridge rectifier, or pwm modulation")
-        if sync:
-            raise InputError(path, f"{rect_comps[0].key}.part", "synchronous rectifiers "
-                             "with phase-shift modulation are not modelled yet; use diodes "
-                             "or pwm modulation")
-        rect_kinds = ("diode",)
         for comp in design.by_role("transformer"):
             l_lk = comp.part.electrical.get("leakage_inductance")
             if l_lk is None or l_lk <= 0:

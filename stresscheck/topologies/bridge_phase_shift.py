@@ -1,6 +1,7 @@
 """Phase-shifted full bridge (zero-voltage-switching PWM) with center-tap or full-bridge
-diode rectifier and the transformer's leakage inductance L_lk (plus any series resonant
-inductor, referred to the primary), continuous conduction of the output inductor.
+rectifier, diodes or synchronous (MOSFET) rectifiers, and the transformer's leakage
+inductance L_lk (plus any series resonant inductor, referred to the primary), continuous
+conduction of the output inductor.
 
 Switches (design order): Q0 leg A high, Q1 leg A low, Q2 leg B high, Q3 leg B low.
 Every switch conducts half a period less the dead time t_d. Leg B is the *lagging* leg
@@ -62,9 +63,38 @@ This module solves the same intervals with the conduction drops:
   ringing: 2·n·v_tx − drops (center-tap), n·v_tx − drops (bridge).
 * Magnetizing current: swings by ∫v_tx dt/L_m, essentially V_in·D_eff·Ts/L_m; B_peak =
   L_m·I_m,peak/(N_p·A_e) [T] (Faraday's law).
+
+Synchronous rectifiers (center-tap or full-bridge positions): the gating follows the
+lagging leg. Rectifier A (the one that conducts with +V_in: center-tap 0, bridge 0 and
+3) has its channel on from t_d after the lagging transition at 0 to the next one at
+Ts/2, rectifier B from Ts/2 + t_d to Ts. So a channel conducts (R_DS(on)·i, either
+direction) through its own power interval and freewheel, where the diode would; the
+body diode (v_f0 + r_d·i, forward only) conducts wherever else the diode would: the
+lagging leg's dead time (S0, OPEN: both body diodes), the rest of the commutation as
+the outgoing rectifier (S1/S3), and a freewheel where both rectifiers conduct. The
+intervals are the diode model's, with per state drops:
+* one rectifier on: the channel, v_1 = R_DS(on)·i_L (bridge: two channels);
+* both on, both body diodes (the dead time S0, OPEN): the diode relations above;
+* both on, incoming channel (c_A = 0, r_A = R_DS(on)) and outgoing body diode (c_B =
+  v_f0, r_B = r_d), from the two secondary loops and i_A − i_B = (i_p − i_m)/n, i_A +
+  i_B = i_L (Kirchhoff's laws and the ideal transformer's ampere-turn balance):
+  center-tap 2·n·v_tx = (R_s + r̄)·(i_p − i_m)/n + (c_A − c_B) + Δr·i_L/2, rectifier
+  node −[(c_A + c_B) + (R_s + r̄)·i_L + Δr·(i_A − i_B)/2]/2; bridge n·v_tx = (R_s +
+  r̄)·(i_p − i_m)/n + (c_A − c_B) + Δr·i_L/2, node −[(c_A + c_B) + r̄·i_L + Δr·(i_A −
+  i_B)/2], with r̄ = (r_A + r_B)/2, Δr = r_A − r_B [V]. The loop keeps its first-order
+  form with v_tx = ρ·(i_p − i_m)/n² + k; the Δr cross terms (tens of millivolts at
+  most, over segments of a few hundred nanoseconds) are taken at the state at the start
+  of the segment.
+Forced continuous conduction: a channel would carry the inductor current backwards
+at light load, but the current is lowest at the lagging transition, where the
+outgoing channel turns off and its body diode would have to take it; such corners
+(a body diode with reverse current anywhere, or the outgoing rectifier's current at
+the transition below zero, also with no dead time) are refused via ``invalid``.
 """
 
 from __future__ import annotations
+
+import copy
 
 import numpy as np
 
@@ -109,17 +139,44 @@ class _Params:
         self.vb = np.mean([d.v_f0 for d in sw], axis=0)
         self.rb = np.mean([d.r_d for d in sw], axis=0)
         rect = RectifierGroup(st.group("rectifier"))
-        self.vf, self.rd = rect.v_f0, rect.r_d
+        self.vf, self.rd = rect.v_f0, rect.r_d  # diode, or the MOSFET's body diode
+        self.sync = rect.sync
+        # the conducting device of a one-rectifier state: the diode, or the channel
+        self.vf1 = np.zeros_like(self.vf) if self.sync else self.vf
+        self.rd1 = rect.r_on if self.sync else self.rd
         self.bridge = st.rectifier == "full-bridge"
         if self.bridge:
-            self.c1, self.r1 = 2 * self.vf, 2 * self.rd + self.r_s  # one path conducts
+            self.c1, self.r1 = 2 * self.vf1, 2 * self.rd1 + self.r_s  # one path conducts
             self.c2, self.r2 = 2 * self.vf, self.rd  # rectifier node, all four conduct
             self.rho = self.r_s + self.rd
         else:
-            self.c1, self.r1 = self.vf, self.rd + self.r_s
+            self.c1, self.r1 = self.vf1, self.rd1 + self.r_s
             self.c2, self.r2 = self.vf, (self.rd + self.r_s) / 2
             self.rho = (self.r_s + self.rd) / 2
+        self.k = 0.0  # constant part of v_tx with both on (unequal drops), [V]
         self.r_diag = self.r_lead + self.r_lag + self.r_p  # two channels + winding
+
+    def mixed(self, state):
+        """Both rectifiers on, the incoming one through its channel (R_DS(on)·i) and the
+        outgoing one through its body diode (v_f0 + r_d·i): a copy with the shared
+        state's drops; the cross terms of the unequal slopes taken at ``state``'s
+        (i_p, i_L, i_m) (module docstring). Diode rectifiers: ``self``."""
+        if not self.sync:
+            return self
+        q = copy.copy(self)
+        ip, il, m = state
+        i_s = (ip - m) / self.n  # i_A − i_B (ampere-turn balance)
+        dr, c_b = self.rd1 - self.rd, self.vf  # channel − body slope; body threshold
+        r_bar = (self.rd1 + self.rd) / 2
+        if self.bridge:
+            q.rho, q.r2 = self.r_s + r_bar, r_bar
+            q.k = (-c_b + dr * il / 2) / self.n
+            q.c2 = c_b + dr * i_s / 2
+        else:
+            q.rho = q.r2 = (self.r_s + r_bar) / 2
+            q.k = (-c_b + dr * il / 2) / (2 * self.n)
+            q.c2 = c_b / 2 + dr * i_s / 4
+        return q
 
 
 def _ratio(x, small, exact, series):
@@ -131,7 +188,7 @@ def _shared(p, e, r, ip0, il0, m0, t, slope=False):
     """Both rectifiers on: (i_p, i_L, i_m) after time t [A]; with ``slope``, also
     d/dt of n·i_L + i_m − i_p there [A/s]."""
     r_eff = r + p.rho / p.n ** 2
-    drive = e + p.rho * m0 / p.n ** 2 - r_eff * ip0  # L_lk·di_p/dt at the start
+    drive = e - p.k + p.rho * m0 / p.n ** 2 - r_eff * ip0  # L_lk·di_p/dt at the start
     x = t * r_eff / p.l_lk
     g = _ratio(x, 1e-6, lambda y: -np.expm1(-y) / y, lambda y: 1 - y / 2)
     h = _ratio(x, 1e-4, lambda y: (y + np.expm1(-y)) / y ** 2, lambda y: 0.5 - y / 6)
@@ -140,12 +197,12 @@ def _shared(p, e, r, ip0, il0, m0, t, slope=False):
     rw = p.dcr + p.r2
     k_l = p.vo + p.c2 + rw * il0
     il = il0 - k_l * t / (p.l + rw * t / 2)
-    m = m0 + p.rho * (ip_mean - m0) * t / (p.n ** 2 * p.l_m)
+    m = m0 + (p.rho * (ip_mean - m0) / p.n ** 2 + p.k) * t / p.l_m
     if not slope:
         return ip, il, m
     d_ip = drive / p.l_lk * np.exp(-x)
     d_il = -k_l * p.l / (p.l + rw * t / 2) ** 2
-    d_m = p.rho * (ip - m0) / (p.n ** 2 * p.l_m)
+    d_m = (p.rho * (ip - m0) / p.n ** 2 + p.k) / p.l_m
     return (ip, il, m), p.n * d_il + d_m - d_ip
 
 
@@ -174,9 +231,9 @@ def _shared_rises(p, e, r, ip, il, m):
     """Whether the outgoing rectifier turns on at once (d/dt of n·i_L + i_m − i_p > 0
     in the both-on state, from a start where it carries nothing)."""
     r_eff = r + p.rho / p.n ** 2
-    dip = (e + p.rho * m / p.n ** 2 - r_eff * ip) / p.l_lk
+    dip = (e - p.k + p.rho * m / p.n ** 2 - r_eff * ip) / p.l_lk
     dil = -(p.vo + p.c2 + (p.dcr + p.r2) * il) / p.l
-    dm = p.rho * (ip - m) / (p.n ** 2 * p.l_m)
+    dm = (p.rho * (ip - m) / p.n ** 2 + p.k) / p.l_m
     return p.n * dil + dm - dip > 0
 
 
@@ -184,7 +241,7 @@ def _zero_crossing(p, e, r, ip0, il0, m0):
     """Time for i_p, negative at the start, to reach zero with both rectifiers on [s]:
     the exponential i_∞ + (i_p0 − i_∞)·exp(−t/τ) in closed form, τ = L_lk/(R + ρ/n²)."""
     r_eff = r + p.rho / p.n ** 2
-    a = np.maximum(e + p.rho * m0 / p.n ** 2, 1e-30)  # L_lk·di_p/dt at i_p = 0
+    a = np.maximum(e - p.k + p.rho * m0 / p.n ** 2, 1e-30)  # L_lk·di_p/dt at i_p = 0
     y = -ip0 * r_eff / a
     t = p.l_lk * (-ip0) / a * _ratio(y, 1e-8, lambda z: np.log1p(z) / z, lambda z: 1 - z / 2)
     return np.where(ip0 < 0, t, 0.0)
@@ -249,10 +306,11 @@ def _half(p, v, d, i_a, i_m, p_a):
     half_t = p.ts / 2 * np.ones(n_c)
 
     def commutate(start):
-        f0, slope0 = _shared_f(p, e1, r1, *start, np.zeros(n_c))
+        pm = p.mixed(start)  # synchronous: the incoming channel is on after t_d
+        f0, slope0 = _shared_f(pm, e1, r1, *start, np.zeros(n_c))
         guess = np.where(slope0 < 0, -f0 / np.where(slope0 < 0, slope0, -1.0), 0.0)
-        root = _last_nonnegative(lambda t: _shared_f(p, e1, r1, *start, t), half_t, guess)
-        return root, _shared(p, e1, r1, *start, root)
+        root = _last_nonnegative(lambda t: _shared_f(pm, e1, r1, *start, t), half_t, guess)
+        return root, _shared(pm, e1, r1, *start, root)
 
     t1, end1 = commutate(state)
     dur = np.where(case_a, t1, 0.0)
@@ -287,16 +345,17 @@ def _half(p, v, d, i_a, i_m, p_a):
     def freewheel(start, e, r, length, k_shared, k_single, was_shared):
         """A freewheel interval: both rectifiers on until the outgoing one's current is
         back at zero (if it starts on), then one rectifier."""
-        begins = was_shared | _shared_rises(p, e, r, *start)
-        root = _last_nonnegative(lambda t: _shared_f(p, e, r, *start, t), length)
+        pm = p.mixed(start)  # synchronous: outgoing body diode, incoming channel
+        begins = was_shared | _shared_rises(pm, e, r, *start)
+        root = _last_nonnegative(lambda t: _shared_f(pm, e, r, *start, t), length)
         t_sh = np.where(begins, root, 0.0)
-        mid = _shared(p, e, r, *start, t_sh)
+        mid = _shared(pm, e, r, *start, t_sh)
         mid = tuple(np.where(begins, x, s) for x, s in zip(mid, start))
         if isinstance(k_shared, tuple):
             sub = t_sh / len(k_shared)
             s = start
             for j, k in enumerate(k_shared):
-                e_j = _shared(p, e, r, *start, sub * (j + 1))
+                e_j = _shared(pm, e, r, *start, sub * (j + 1))
                 e_j = tuple(np.where(begins, x, s0) for x, s0 in zip(e_j, start))
                 put(k, sub, s, e_j)
                 s = e_j
@@ -435,13 +494,24 @@ def evaluate(st: Stage) -> StageResult:
             ("switch", 1): live(grid.wave(*_mirror(_only(LEAD_BODY, ip), zero))),
             ("switch", 2): live(grid.wave(*_mirror(zero, _only(LAG_BODY, neg)))),
             ("switch", 3): live(grid.wave(*_mirror(_only(LAG_BODY, neg), zero)))}
-    if p.bridge:
-        for k in (0, 3):
-            currents[("rectifier", k)] = rect_a
-        for k in (1, 2):
-            currents[("rectifier", k)] = rect_b
-    else:
-        currents[("rectifier", 0)], currents[("rectifier", 1)] = rect_a, rect_b
+    groups = ((0, 3), (1, 2)) if p.bridge else ((0,), (1,))
+    # synchronous: rectifier A's channel is gated on in the first half after the
+    # lagging leg's dead time (S0 + OPEN = t_d), B's in the second; the body diode
+    # carries the forward current everywhere else (module docstring)
+    gate_a = np.concatenate([~LAG_BODY & (np.arange(HALF) != OPEN), np.zeros(HALF, bool)])
+    gate_b = np.concatenate([gate_a[HALF:], gate_a[:HALF]])
+    rect_body = {}
+    for positions, cur, gate in zip(groups, (rect_a, rect_b), (gate_a, gate_b)):
+        for k in positions:
+            if p.sync:  # channel current drain -> source: the forward current reversed
+                currents[("rectifier", k)] = (-cur).only(gate)
+                raw = live(cur.only(~gate))
+                rect_body[k] = raw  # checked below (forward only)
+                # the outgoing current's end is a root (zero to ~1e-15 A)
+                body[("rectifier", k)] = grid.wave(np.maximum(raw.a, 0.0),
+                                                   np.maximum(raw.b, 0.0))
+            else:
+                currents[("rectifier", k)] = cur
 
     # blocking voltages ----------------------------------------------------------------
     lasting = grid.dt > 0
@@ -473,7 +543,7 @@ def evaluate(st: Stage) -> StageResult:
         col(1 + n ** 2 * p.l_lk / p.l + p.l_lk / p.l_m)
     # the blocking rectifier: the whole (bridge: one) secondary less the conducting
     # path's diode and winding drops
-    drop = col(p.vf) + col(p.rd + p.r_s) * il_s
+    drop = col(p.vf1) + col(p.rd1 + p.r_s) * il_s
     v_rev = (n if p.bridge else 2 * n) * v_tx - drop
     single = np.concatenate([SINGLE, SINGLE])[None, :] & lasting
     v_rect = np.maximum(_masked_max(v_rev, single), 0.0)
@@ -494,22 +564,43 @@ def evaluate(st: Stage) -> StageResult:
     xf = st.transformer
     b_peak = p.l_m * i_m_peak / (xf.n_p * xf.core_area) if xf.core_area else None
 
-    rect_min = np.minimum(rect_a.min(), rect_b.min())
+    noise = -ACCEPT_TOL * np.maximum(io, 1.0)  # below the solution noise
     invalid = [
         (~converged, "the phase-shift model found no steady state (its interval "
                      "equations did not converge); check the leakage inductance and the "
                      "operating point"),
-        (il_w.min() <= 0, "the output inductor current falls to zero (discontinuous "
-                          "conduction), which the phase-shifted bridge model does not "
-                          "cover yet; raise the minimum load or the output inductance"),
-        (rect_min < -ACCEPT_TOL * np.maximum(io, 1.0),  # below the solution noise
-         "the magnetizing current exceeds the reflected inductor current while both "
-         "rectifiers conduct, so one would stop (not modelled); raise the magnetizing "
-         "inductance or the minimum load"),
     ]
+    if p.sync:
+        # forced continuous conduction: the channels conduct either way, but a body
+        # diode (dead time, commutation, freewheel) only forward
+        body_min = np.min([np.where(grid.dt > 0, np.minimum(w.a, w.b), np.inf).min(axis=1)
+                           for w in rect_body.values()], axis=0)
+        # ... and the outgoing rectifier at the lagging leg's transition, where its
+        # channel turns off, also with no dead time (S0 of zero length)
+        body_min = np.minimum(body_min, np.minimum(rect_b.a[:, S0], rect_a.a[:, HALF + S0]))
+        invalid.append((body_min < noise, "a synchronous rectifier carries reverse "
+                        "current when its channel is off (light load, forced continuous "
+                        "conduction: the inductor current reverses in the freewheel and "
+                        "is still negative at the lagging leg's transition); its body "
+                        "diode cannot take it (not modelled); raise the minimum load or "
+                        "the output inductance"))
+    else:
+        invalid += [
+            (il_w.min() <= 0, "the output inductor current falls to zero (discontinuous "
+                              "conduction), which the phase-shifted bridge model does not "
+                              "cover yet; raise the minimum load or the output inductance, "
+                              "or use synchronous rectifiers"),
+            (np.minimum(rect_a.min(), rect_b.min()) < noise,
+             "the magnetizing current exceeds the reflected inductor current while both "
+             "rectifiers conduct, so one would stop (not modelled); raise the magnetizing "
+             "inductance or the minimum load"),
+        ]
     return StageResult(duty=d, grid=grid, currents=currents, v_block=v_block,
                        input_current=i_dc, winding_loss=p_wind, b_peak=b_peak,
                        i_m_peak=i_m_peak, i_l_start=i_a0, i_m_start=-i_m0, body=body,
                        invalid=invalid, regime=np.full(io.shape, "CCM", dtype=object),
                        notes=["rectifier voltages are before any ringing; the zero-voltage transitions "
-                              "are taken as ideal (no check that the leakage energy charges C_oss)"])
+                              "are taken as ideal (no check that the leakage energy charges C_oss)"]
+                       + (["synchronous rectifiers gated from the lagging leg: each channel on "
+                           "from one dead time after its half period starts to its end; the "
+                           "body diodes carry the commutation"] if p.sync else []))

@@ -1,6 +1,7 @@
 """Flyback converter: one primary switch, a coupled inductor (the "flyback transformer"),
-one rectifier diode, in continuous (CCM) or discontinuous (DCM) conduction of the
-magnetizing current, the regime found at each corner.
+one rectifier: a diode, in continuous (CCM) or discontinuous (DCM) conduction of the
+magnetizing current, the regime found at each corner; or a MOSFET (synchronous
+rectifier, forced continuous conduction, optional dead time).
 
 Circuit and conventions
 -----------------------
@@ -13,10 +14,14 @@ falls as the secondary delivers the stored energy to the output. Duty D = on-tim
 Ts = 1/fs; n = N_s/N_p; L_m is referred to N_p; L_s = n²·L_m is the same inductance seen
 from the secondary.
 
-Segment grid of one period, S = 2·K + 1 segments (K = :data:`K_SUB`):
+Segment grid of one period, S = 4·K + 1 segments (K = :data:`K_SUB`):
   0 .. K−1:    on-time D·Ts in K equal steps: Q1 conducts
-  K .. 2K−1:   off-time D_2·Ts in K equal steps: the rectifier conducts
-  2K:          idle D_3·Ts = (1 − D − D_2)·Ts: no winding carries current (DCM only;
+  K .. 2K−1:   dead time t_d after Q1 turns off (synchronous rectifier only, else zero
+               length): the rectifier MOSFET's body diode conducts
+  2K .. 3K−1:  D_2·Ts in K equal steps: the rectifier conducts (diode, or the synchronous
+               MOSFET's channel for (1 − D)·Ts − 2·t_d)
+  3K .. 4K−1:  dead time t_d before Q1 turns on again (synchronous only): body diode
+  4K:          idle D_3·Ts = (1 − D − D_2)·Ts: no winding carries current (DCM only;
                zero length in CCM, where D_2 = 1 − D)
 
 Relations
@@ -64,10 +69,45 @@ With conduction drops, bus ripple and output ripple:
 * V_a and V_b depend on the ripple of the banks, which depends on the waveforms: a fixed
   point of a few passes.
 
+Synchronous rectifier (a MOSFET in the rectifier role)
+------------------------------------------------------
+The rectifier MOSFET (source at the winding, drain at the output, its body diode in the
+place of the rectifier diode) is driven complementary to Q1: on from one dead time after
+Q1 turns off until one dead time before Q1 turns on. Its channel conducts in both
+directions, so the magnetizing current never stops: the converter runs in forced
+continuous conduction at every load, with the CCM relations above (Erickson &
+Maksimović, §6.3.4 — from memory; with the channel the DCM relations never apply). At
+light load the secondary current turns negative at the end of the off-time (the
+channel carries it from the output back into the winding) and the primary current
+starts the on-time negative (through Q1's channel, back into the input bank).
+* Off-time sub-intervals, each with K trapezoidal steps of L_s·di_s/dt = −(V + R·i_s):
+      dead times: V = V_c + v_f0,body,  R = r_d,body + R_s + ESR_out
+      channel:    V = V_c,              R = R_DS(on),SR + R_s + ESR_out
+  with V_c = mean over the off-time of the output bank's capacitance voltage
+  − ESR_out·I_o. The CCM construction above (charge balance fixes I_s0, the
+  magnetizing current returns to its start value after one period, D by bisection)
+  takes the three sub-intervals in a row. The body-diode drop in the dead times takes
+  volt-seconds from the reset: lossless but for a body-diode drop v_bd, volt-second
+  balance on L_m gives n·V_in·D = V_o·(1 − D) + 2·t_d·fs·v_bd, i.e.
+      D = (V_o + 2·t_d·fs·v_bd)/(V_o + n·V_in)                           [1]
+  (the tests check it), and the reflected voltage at the start of the off-time carries
+  v_f0,body + r_d,body·I_s0 (the peak drain voltage of Q1: V_in + (V_o + v_bd)/n).
+* Duty limit: the period holds the on-time and the two dead times, D <= 1 − 2·t_d·fs
+  (besides ``converter.max_duty`` or the default controller limit).
+* Refused (``invalid``): with t_d > 0, a secondary current that is not positive
+  throughout both dead times (at light load the negative current at the end of the
+  channel interval would return through Q1's body diode; not modelled). With t_d = 0
+  the reversal is modelled at every load.
+* Rectifier stresses: channel current = −i_s in the channel interval (drain -> source),
+  body-diode current i_s in the dead times; v_peak the drain-source blocking voltage of
+  the on-time, v_out + n·(v_bus − (R_DS(on) + R_p)·i_p), ripple maxima included
+  (lossless: V_o + n·V_in).
+
 Stresses
 --------
 * Switch v_peak: the largest drain voltage of the off-time,
-      v_bus(t) + (v_out(t) + v_f0 + (r_d + R_s)·i_s(t))/n,
+      v_bus(t) + (v_out(t) + v_f0 + (r_d + R_s)·i_s(t))/n
+  (synchronous: the body-diode drop in the dead times, R_DS(on),SR·i_s in the channel),
   with v_out the terminal voltage of the output bank (its ESR step at the start of the
   off-time included), and v_bus in the idle interval. This is the voltage *before any
   leakage spike*: leakage inductance, the clamp or snubber and the ringing of the drain
@@ -91,7 +131,8 @@ range; give max_duty to use your controller's figure.
 
 Not modelled: leakage inductance (read from the part sheet but not used), clamp or
 snubber, switch and diode capacitances (no ringing), reverse recovery, core loss,
-synchronous rectifiers (refused by the layout).
+body-diode conduction of Q1 (synchronous rectifier with dead time at loads where the
+secondary current reverses: refused).
 """
 
 from __future__ import annotations
@@ -104,10 +145,14 @@ from ..waveforms import Grid, capacitor_voltage_samples, max_over, mean_over_sam
 from . import Layout, RoleSpec, Stage, StageResult
 
 K_SUB = 6  # trapezoidal steps per conduction interval
-S = 2 * K_SUB + 1  # segments per period
-MASK_ON = np.arange(S) < K_SUB
-MASK_OFF = (np.arange(S) >= K_SUB) & (np.arange(S) < 2 * K_SUB)
-MASK_IDLE = np.arange(S) == 2 * K_SUB
+S = 4 * K_SUB + 1  # segments per period
+_SEG = np.arange(S)
+MASK_ON = _SEG < K_SUB
+MASK_DEAD_A = (_SEG >= K_SUB) & (_SEG < 2 * K_SUB)  # body diode after Q1 turns off
+MASK_COND = (_SEG >= 2 * K_SUB) & (_SEG < 3 * K_SUB)  # rectifier diode or SR channel
+MASK_DEAD_B = (_SEG >= 3 * K_SUB) & (_SEG < 4 * K_SUB)  # body diode before Q1 turns on
+MASK_OFF = MASK_DEAD_A | MASK_COND | MASK_DEAD_B  # the secondary conducts
+MASK_IDLE = _SEG == 4 * K_SUB
 DEFAULT_MAX_DUTY = 0.7  # [1] assumed controller limit when the design gives no max_duty
 # Upper end of the duty search [1]: far above any controller limit, below the duty where
 # conduction drops make the output voltage fall again with rising duty (boost-like).
@@ -115,6 +160,12 @@ DUTY_SEARCH_MAX = 0.95
 MAX_PASSES = 30  # fixed point between the waveforms and the ripple of the banks
 PASS_RTOL = 1e-11
 BOUNDARY_RTOL = 1e-9  # DCM intervals may exceed the period by this much (round-off)
+
+
+def synchronous(design) -> bool:
+    """True where the rectifier is a MOSFET (synchronous rectifier)."""
+    comps = design.by_role("rectifier")
+    return bool(comps) and comps[0].part.kind == "mosfet"
 
 
 def layout(design) -> Layout:
@@ -127,11 +178,11 @@ def layout(design) -> Layout:
     if design.modulation != "pwm":
         raise InputError(path, "converter.modulation", "a flyback converter takes pwm "
                          "modulation only")
-    if design.dead_time:
+    if design.dead_time and not synchronous(design):
         raise InputError(path, "converter.dead_time", "a flyback converter with a diode "
                          "rectifier has no complementary switches, so a dead time has no "
-                         "meaning here (synchronous rectifiers are not modelled yet); "
-                         "remove the key")
+                         "meaning here (it applies to a MOSFET in the rectifier role, a "
+                         "synchronous rectifier); remove the key")
     for comp in design.by_role("transformer"):
         if "magnetizing_inductance" not in comp.part.electrical:
             raise InputError(path, f"{comp.key}.part", f"transformer '{comp.part.id}' has "
@@ -139,7 +190,7 @@ def layout(design) -> Layout:
                              "the magnetizing inductance, so the part sheet must give it")
     roles = {
         "switch": RoleSpec(1, kinds=("mosfet",)),
-        "rectifier": RoleSpec(1, kinds=("diode",)),
+        "rectifier": RoleSpec(1, kinds=("diode", "mosfet")),
         "transformer": RoleSpec(1),
         "input-capacitor": RoleSpec(None),
         "output-capacitor": RoleSpec(None),
@@ -149,17 +200,25 @@ def layout(design) -> Layout:
 
 def duty_limit(design, fs):
     """Largest duty ratio [1]: 1 when the design gives max_duty (the engine applies it),
-    else :data:`DEFAULT_MAX_DUTY` (see the module notes)."""
+    else :data:`DEFAULT_MAX_DUTY` (see the module notes); a synchronous rectifier also
+    needs its two dead times in each period, D <= 1 − 2·t_d·fs."""
     limit = 1.0 if design.max_duty is not None else DEFAULT_MAX_DUTY
-    return np.full(np.shape(fs), limit)
+    limit = np.full(np.shape(fs), limit)
+    if synchronous(design):
+        limit = np.minimum(limit, 1.0 - 2 * design.dead_time * np.asarray(fs, dtype=float))
+    return limit
 
 
 def duty_limit_reason(design) -> str:
     if design.max_duty is not None:
-        return "the switch needs off-time for the transformer to deliver its energy"
-    return (f"no converter.max_duty given, so a controller limit of {DEFAULT_MAX_DUTY:g} "
-            "is assumed (common for flyback controllers); set max_duty to your "
-            "controller's limit")
+        text = "the switch needs off-time for the transformer to deliver its energy"
+    else:
+        text = (f"no converter.max_duty given, so a controller limit of "
+                f"{DEFAULT_MAX_DUTY:g} is assumed (common for flyback controllers); set "
+                "max_duty to your controller's limit")
+    if synchronous(design) and design.dead_time:
+        text += "; the two dead times of the synchronous rectifier take 2·t_d·fs"
+    return text
 
 
 def _affine(v, r, l, h):
@@ -192,9 +251,14 @@ def _reset_time(i0, v, r, l):
 
 
 class _Params:
-    """Per-corner constants of one pass [SI]."""
+    """Per-corner constants of one pass [SI].
 
-    def __init__(self, st: Stage, va, vb):
+    ``vc``: mean capacitance voltage of the output bank over the off-time less
+    ESR_out·I_o [V]; the off-time sub-intervals (dead time A, conduction, dead time B)
+    have L_s·di/dt = −(V + R·i) with (V, R) in ``off`` [V, ohm], each (N,).
+    """
+
+    def __init__(self, st: Stage, va, vc):
         xf = st.transformer
         (sw,), (rect,) = st.group("switch"), st.group("rectifier")
         cin = st.capacitors[("input-capacitor", 0)]
@@ -204,19 +268,51 @@ class _Params:
         self.ls = xf.l_m * self.n ** 2
         self.ts = 1.0 / st.fs
         self.io = st.io
-        self.va, self.vb = va, vb
+        self.va, self.vc = va, vc
         self.ra = sw.r_on + xf.r_p + cin.esr
-        self.rb = rect.r_d + xf.r_s + cout.esr
+        self.sync = rect.kind == "mosfet"
+        self.td = st.dead_time if self.sync else 0.0
+        body = (vc + rect.v_f0, rect.r_d + xf.r_s + cout.esr)  # diode or body diode
+        cond = (vc, rect.r_on + xf.r_s + cout.esr) if self.sync else body
+        self.off = [body, cond, body]
+        self.vb, self.rb = body  # the diode (DCM)
+
+    def off_times(self, d):
+        """Durations of the off-time sub-intervals for duty d (N,) [s]: dead time A,
+        conduction, dead time B (CCM)."""
+        # beyond the duty limit 1 − 2·t_d·fs (refused by the engine with its reason)
+        # the dead times share what is left of the off-time
+        td = np.minimum(self.td, np.maximum((1 - d) * self.ts, 0.0) / 2)
+        return [td, np.maximum((1 - d) * self.ts - 2 * td, 0.0), td]
+
+
+def _secondary(p: _Params, times):
+    """Secondary nodes over the off-time sub-intervals of duration ``times`` (3 x (N,))
+    [s] as i_j = I_s0·U_j + W_j, (N, 3K+1), and the delivered charge as
+    I_s0·Q_u + Q_w [C]."""
+    n = p.io.size
+    u_all, w_all = [np.ones((n, 1))], [np.zeros((n, 1))]
+    q_u, q_w = np.zeros(n), np.zeros(n)
+    for (v, r), t in zip(p.off, times):
+        h = t / K_SUB
+        u, w = _affine(-v, r, p.ls, h)
+        u0, w0 = u_all[-1][:, -1:], w_all[-1][:, -1:]
+        nu, nw = u0 * u, w0 * u + w
+        q_u += _charge(nu, h)
+        q_w += _charge(nw, h)
+        u_all.append(nu[:, 1:])
+        w_all.append(nw[:, 1:])
+    return np.concatenate(u_all, 1), np.concatenate(w_all, 1), q_u, q_w
 
 
 def _ccm(p: _Params):
     """CCM duty, valley I_1 and secondary current at turn-off I_s0 (N,) [1, A, A]."""
 
     def parts(d):
-        h1, h2 = d * p.ts / K_SUB, (1 - d) * p.ts / K_SUB
+        h1 = d * p.ts / K_SUB
         u1, w1 = _affine(p.va, p.ra, p.l, h1)
-        u2, w2 = _affine(-p.vb, p.rb, p.ls, h2)
-        s0 = (p.io * p.ts - _charge(w2, h2)) / _charge(u2, h2)  # charge balance
+        u2, w2, q_u, q_w = _secondary(p, p.off_times(d))
+        s0 = (p.io * p.ts - q_w) / q_u  # charge balance
         i1 = (p.n * s0 - w1[:, -1]) / u1[:, -1]  # on-time ends at n·s0
         end = p.n * (s0 * u2[:, -1] + w2[:, -1])  # magnetizing current after one period
         return end - i1, i1, s0
@@ -249,40 +345,49 @@ def evaluate(st: Stage) -> StageResult:
     cin = st.capacitors[("input-capacitor", 0)]
     cout = st.capacitors[("output-capacitor", 0)]
     vin, vo, io = st.vin, st.vo, st.io
-    vf0, rd, rs = rect.v_f0, rect.r_d, xf.r_s
+    rs = xf.r_s
     n = xf.n_s / xf.n_p
     ts = 1.0 / st.fs
+    sync = rect.kind == "mosfet"
+    zn = np.zeros_like(io)
 
     i_dc = vo * io / vin  # first guess of the source current [A]
     va = vin + cin.esr * i_dc
-    vb = vo - cout.esr * io + vf0
+    vc = vo - cout.esr * io
     for _ in range(MAX_PASSES):
-        p = _Params(st, va, vb)
+        p = _Params(st, va, vc)
         d_c, i1_c, s0_c, ok_c = _ccm(p)
-        d_d, s0_d, t2_d, ok_d = _dcm(p)
-        ccm = ok_c & (i1_c > 0)
-        dcm_fits = ok_d & (d_d * ts + t2_d <= ts * (1 + BOUNDARY_RTOL))
-        unreachable = ~ccm & ~dcm_fits
+        if sync:  # forced continuous: the channel conducts both ways
+            ccm, dcm_fits = np.ones_like(ok_c), np.zeros_like(ok_c)
+            unreachable = ~ok_c
+            d_d, s0_d, t2_d = d_c, s0_c, zn
+        else:
+            d_d, s0_d, t2_d, ok_d = _dcm(p)
+            ccm = ok_c & (i1_c > 0)
+            dcm_fits = ok_d & (d_d * ts + t2_d <= ts * (1 + BOUNDARY_RTOL))
+            unreachable = ~ccm & ~dcm_fits
         use_ccm = ccm | unreachable  # unreachable: the CCM search end, refused below
         duty = np.where(use_ccm, d_c, d_d)
         i1 = np.where(use_ccm, i1_c, 0.0)
         s0 = np.where(use_ccm, s0_c, s0_d)
         t1 = duty * ts
-        t2 = np.where(use_ccm, (1 - duty) * ts, t2_d)
-        t3 = np.maximum(ts - t1 - t2, 0.0)
-        h1, h2 = t1 / K_SUB, t2 / K_SUB
+        times = p.off_times(duty)
+        times[1] = np.where(use_ccm, times[1], t2_d)
+        t3 = np.maximum(ts - t1 - sum(times), 0.0)
+        h1 = t1 / K_SUB
         u1, w1 = _affine(p.va, p.ra, p.l, h1)
-        u2, w2 = _affine(-p.vb, p.rb, p.ls, h2)
+        u2, w2, _, _ = _secondary(p, times)
         prim = i1[:, None] * u1 + w1  # (N, K+1) primary nodes [A]
-        sec = s0[:, None] * u2 + w2  # (N, K+1) secondary nodes [A]
+        sec = s0[:, None] * u2 + w2  # (N, 3K+1) secondary nodes [A]
         if not use_ccm.all():  # DCM: the off-time ends at zero (exact up to round-off)
-            sec[~use_ccm, -1] = 0.0
+            sec[~use_ccm, 2 * K_SUB:] = 0.0
 
-        grid = Grid(np.concatenate([np.repeat(h1[:, None], K_SUB, 1),
-                                    np.repeat(h2[:, None], K_SUB, 1), t3[:, None]], 1))
-        z_k, z_1 = np.zeros((io.size, K_SUB)), np.zeros((io.size, 1))
-        i_p = grid.wave(np.concatenate([prim[:, :-1], z_k, z_1], 1),
-                        np.concatenate([prim[:, 1:], z_k, z_1], 1))
+        steps = [h1] + [t / K_SUB for t in times]
+        grid = Grid(np.concatenate([np.repeat(h[:, None], K_SUB, 1) for h in steps]
+                                   + [t3[:, None]], 1))
+        z_k, z_3k, z_1 = (np.zeros((io.size, k)) for k in (K_SUB, 3 * K_SUB, 1))
+        i_p = grid.wave(np.concatenate([prim[:, :-1], z_3k, z_1], 1),
+                        np.concatenate([prim[:, 1:], z_3k, z_1], 1))
         i_s = grid.wave(np.concatenate([z_k, sec[:, :-1], z_1], 1),
                         np.concatenate([z_k, sec[:, 1:], z_1], 1))
         i_dc = i_p.mean()
@@ -290,11 +395,11 @@ def evaluate(st: Stage) -> StageResult:
         i_cout = i_s - io
         va_new = (mean_over_samples(capacitor_voltage_samples(i_cin, cin.c, 0.0, vin),
                                     grid, MASK_ON) + cin.esr * i_dc)
-        vb_new = (mean_over_samples(capacitor_voltage_samples(i_cout, cout.c, 0.0, vo),
-                                    grid, MASK_OFF) - cout.esr * io + vf0)
+        vc_new = (mean_over_samples(capacitor_voltage_samples(i_cout, cout.c, 0.0, vo),
+                                    grid, MASK_OFF) - cout.esr * io)
         done = (np.allclose(va_new, va, rtol=PASS_RTOL, atol=0)
-                and np.allclose(vb_new, vb, rtol=PASS_RTOL, atol=0))
-        va, vb = va_new, vb_new
+                and np.allclose(vc_new, vc, rtol=PASS_RTOL, atol=0))
+        va, vc = va_new, vc_new
         if done:
             break
 
@@ -304,9 +409,16 @@ def evaluate(st: Stage) -> StageResult:
     ip_s, is_s = i_p.samples(), i_s.samples()
 
     def col(x):
-        return np.asarray(x, dtype=float)[:, None, None]
+        return np.broadcast_to(np.asarray(x, dtype=float), io.shape)[:, None, None]
 
-    drain = bus + (v_out + col(vf0) + col(rd + rs) * is_s) / n
+    # rectifier drop per off-time segment: v_f0 + r_d·i (diode, body diode in a dead time
+    # of nonzero length) or R_on·i (channel)
+    body_f0, body_r = col(rect.v_f0), col(rect.r_d + rs)
+    cond_f0 = col(0.0) if sync else body_f0
+    cond_r = col(rect.r_on + rs) if sync else body_r
+    dead = ((MASK_DEAD_A | MASK_DEAD_B)[None, :] & (grid.dt > 0))[:, :, None]
+    drop = np.where(dead, body_f0 + body_r * is_s, cond_f0 + cond_r * is_s)
+    drain = bus + (v_out + drop) / n
     v_sw = np.maximum(max_over(drain, MASK_OFF), max_over(bus, MASK_IDLE))
     reverse = v_out + n * (bus - col(sw.r_on + xf.r_p) * ip_s)
     v_rect = np.maximum(max_over(reverse, MASK_ON), max_over(v_out, MASK_IDLE))
@@ -314,9 +426,14 @@ def evaluate(st: Stage) -> StageResult:
                ("input-capacitor", 0): max_over(bus), ("output-capacitor", 0): max_over(v_out)}
     currents = {("switch", 0): i_p, ("rectifier", 0): i_s,
                 ("input-capacitor", 0): i_cin, ("output-capacitor", 0): i_cout}
+    body = {}
+    if sync:
+        # channel current counts drain (output) -> source (winding): −i_s
+        currents[("rectifier", 0)] = (-i_s).only(MASK_COND)
+        body[("rectifier", 0)] = i_s.only(MASK_DEAD_A | MASK_DEAD_B)
 
     # transformer ------------------------------------------------------------------------
-    i_m_peak = prim[:, -1]
+    i_m_peak = np.maximum(prim[:, -1], np.abs(prim[:, 0]))
     p_wind = xf.r_p * i_p.rms() ** 2 + rs * i_s.rms() ** 2
     b_peak = xf.l_m * i_m_peak / (xf.n_p * xf.core_area) if xf.core_area else None
 
@@ -324,6 +441,22 @@ def evaluate(st: Stage) -> StageResult:
                 f"to {DUTY_SEARCH_MAX:g}: the conduction drops (switch, windings, "
                 "rectifier, capacitor ESR) take more than the input can supply; lower "
                 "them, or raise N_s/N_p")]
+    notes = ["switch v_peak is before the leakage-inductance spike: no clamp or snubber "
+             "is modelled, add its allowance before signing off"]
+    if sync and st.dead_time > 0:
+        k1, k3 = 2 * K_SUB, 3 * K_SUB  # nodes: end of dead time A, start of dead time B
+        invalid.append((~unreachable & ((sec[:, k1] <= 0) | (sec[:, k3] <= 0)
+                                        | (sec[:, -1] <= 0)),
+                        "the secondary current of the synchronous rectifier is not positive "
+                        "throughout the dead times (light load in forced continuous "
+                        "conduction: the reversed current would return through the "
+                        "switch's body diode, which is not modelled); raise the minimum "
+                        "load or the magnetizing inductance, or set converter.dead_time "
+                        "to 0 to model the reversal"))
+    if sync and np.any(sec.min(axis=1) < 0):
+        notes.append("forced continuous conduction: the secondary current turns negative "
+                     "at light load and the synchronous rectifier's channel carries it "
+                     "back into the winding (no diode emulation)")
     regime = np.where(use_ccm, "CCM", "DCM").astype(object)
     # A corner out of reach is refused through ``invalid`` with its own reason; its duty
     # is reported at the limit so that the engine does not refuse it first as "needs a
@@ -332,6 +465,4 @@ def evaluate(st: Stage) -> StageResult:
     return StageResult(duty=duty, grid=grid, currents=currents, v_block=v_block,
                        input_current=i_dc, winding_loss=p_wind, b_peak=b_peak,
                        i_m_peak=i_m_peak, i_l_start=np.zeros_like(duty), i_m_start=i1,
-                       invalid=invalid, regime=regime,
-                       notes=["switch v_peak is before the leakage-inductance spike: no clamp or snubber "
-                              "is modelled, add its allowance before signing off"])
+                       body=body, invalid=invalid, regime=regime, notes=notes)

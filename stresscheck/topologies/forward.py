@@ -1,6 +1,7 @@
 """Forward converters: single switch with a reset winding, and two-switch forward with
 clamp diodes; diode rectifier (forward diode + freewheel diode), output inductor in
-continuous (CCM) or discontinuous (DCM) conduction.
+continuous (CCM) or discontinuous (DCM) conduction, or synchronous rectifiers (MOSFETs
+in the rectifier and/or freewheel role, with dead time; forced continuous conduction).
 
 Circuit and conventions
 -----------------------
@@ -76,11 +77,51 @@ With drops (all taken at the mean current of their interval, as in the bridge mo
 * The source supplies only DC: the input capacitors carry all the AC current (the
   conservative convention for their ripple rating).
 
+Synchronous rectifiers (``_evaluate_sync``)
+-------------------------------------------
+A MOSFET may take the rectifier and/or the freewheel position; its body diode points
+the way of the diode it replaces (forward MOSFET: source at the secondary dot, drain at
+the inductor node; freewheel MOSFET: source at the output return). The forward MOSFET is
+gated with the switch(es); the freewheel MOSFET complementary to them, one
+``Stage.dead_time`` t_d after the switch turns off until t_d before it turns on (the
+dead time applies only with a freewheel MOSFET; a forward MOSFET beside a freewheel
+diode has no complementary partner). Off-time grid: its segments are cut at t_d, at the
+end of the reset t_r and at T_off − t_d (sorted per corner), each segment drawn as
+N_SUB straight pieces with the slope at its own mean current (the drops follow the
+current along the ramp, which keeps the energy balance where the ripple is large
+against the load current).
+* Conduction: channel R_DS(on)(T_j)·i where the diode would conduct; in the dead times
+  the freewheel MOSFET's body diode v_f0 + r_d·i carries the inductor current
+  (``StageResult.body``). In the idle interval the forward position's diode (for a
+  MOSFET: its body diode) clamps the transformer as for the diode rectifier, with
+  v_cl = (v_free(i_L) − v_f0,fwd)/n [V] per piece, zero where negative.
+* Output inductor volt-second balance (Erickson & Maksimović §2.2 with the drops of
+  ch. 3, the dead times as intervals of their own — from memory):
+      V_o + DCR·I_o = D·v_on − [t_d·(v_b(I_A) + v_b(I_B)) + (T_off − 2·t_d)·v_ch(I_C)]·f_s
+  with v_on = n·e_on − (R_s + R_fwd)·I_on (channel) and the mean currents I_A, I_C,
+  I_B of the dead time after turn-off, the gated interval and the dead time before
+  turn-on [V]. Lossless with an ideal channel: V_o = D·n·V_in − 2·t_d·f_s·V_F, i.e.
+  D = (V_o + 2·t_d·f_s·V_F)/(n·V_in): the dead times raise the duty.
+* Forced continuous conduction (a freewheel MOSFET conducts both ways): the inductor
+  current may turn negative at light load. Without dead time the channels carry it
+  (modelled); with a dead time a negative current at the freewheel MOSFET's turn-off
+  finds no body diode to flow in (both block it; the node is then driven by the device
+  capacitances) and the corner is refused. A forward MOSFET beside a freewheel diode
+  is modelled in CCM only (the discontinuous corner is refused).
+* Blocking voltages: as for the diodes, with the conducting device's drop of each
+  piece: the forward MOSFET blocks n·v_reset − v_free (v_free the freewheel channel's
+  R·i or, in a dead time, its body-diode drop), the freewheel MOSFET the secondary
+  emf less the forward channel's drop in the on-time; the switch sees the idle clamp
+  reflected (V_bus + v_cl) where the freewheel body diode's drop exceeds the forward
+  position's v_f0.
+* The limit of the duty ratio also keeps the two dead times: D <= 1 − 2·t_d·f_s.
+
 Not modelled: leakage inductance and the turn-off spike it causes (stresses are "before
 any spike"), switch and diode capacitances (the drain rings after the reset; in the idle
 interval the two-switch forward's midpoint voltages are set by them, so its switches and
-clamp diodes are given the conservative bound V_bus there), reverse recovery, core loss,
-synchronous rectifiers (refused).
+clamp diodes are given the conservative bound V_bus there), reverse recovery, core loss;
+with synchronous rectifiers: diode emulation (light-load DCM), self-driven gate timing,
+the body diodes' reverse recovery at the end of each dead time.
 """
 
 from __future__ import annotations
@@ -94,6 +135,7 @@ from . import Layout, RoleSpec, Stage, StageResult
 
 MASK_ON = np.array([True, False, False, False])
 MAX_PASSES = 40  # fixed point between duty, magnetizing current and bus ripple
+N_SUB = 8  # synchronous rectifiers: straight pieces per interval (see _evaluate_sync)
 PASS_RTOL = 1e-12
 TWO_SWITCH = "two-switch-forward"
 
@@ -101,6 +143,13 @@ TWO_SWITCH = "two-switch-forward"
 def _transformer_part(design):
     comps = design.by_role("transformer")
     return comps[0] if comps else None
+
+
+def _synchronous_freewheel(design) -> bool:
+    """True where the freewheel position is a MOSFET (driven complementary to the
+    switch, with the design's dead time between the two)."""
+    comps = design.by_role("freewheel")
+    return bool(comps) and comps[0].part.kind == "mosfet"
 
 
 def layout(design) -> Layout:
@@ -114,11 +163,11 @@ def layout(design) -> Layout:
     if design.modulation != "pwm":
         raise InputError(path, "converter.modulation", f"a {top} converter takes pwm "
                          "modulation only")
-    if design.dead_time:
-        raise InputError(path, "converter.dead_time", f"a {top} converter with diode "
-                         "rectifiers has no complementary switches, so a dead time has no "
-                         "meaning here (synchronous rectifiers are not modelled yet); "
-                         "remove the key")
+    if design.dead_time and not _synchronous_freewheel(design):
+        raise InputError(path, "converter.dead_time", f"a {top} converter with a diode "
+                         "in the freewheel role has no complementary switches, so a dead "
+                         "time has no meaning here (it applies between the switch and a "
+                         "synchronous freewheel MOSFET); remove the key")
     comp = _transformer_part(design)
     if comp is not None:
         e = comp.part.electrical
@@ -135,8 +184,8 @@ def layout(design) -> Layout:
     roles = {
         "switch": RoleSpec(2 if two else 1, kinds=("mosfet",)),
         "transformer": RoleSpec(1),
-        "rectifier": RoleSpec(1, kinds=("diode",)),
-        "freewheel": RoleSpec(1, kinds=("diode",)),
+        "rectifier": RoleSpec(1, kinds=("diode", "mosfet")),
+        "freewheel": RoleSpec(1, kinds=("diode", "mosfet")),
         "reset": RoleSpec(2 if two else 1, kinds=("diode",)),
         "inductor": RoleSpec(1),
         "input-capacitor": RoleSpec(None),
@@ -156,20 +205,29 @@ def duty_limit(design, fs):
     """
     fs = np.asarray(fs, dtype=float)
     if design.topology == TWO_SWITCH:
-        return np.full(fs.shape, 0.5)
-    e = _transformer_part(design).part.electrical
-    return np.full(fs.shape, e["primary_turns"] / (e["primary_turns"] + e["reset_turns"]))
+        limit = np.full(fs.shape, 0.5)
+    else:
+        e = _transformer_part(design).part.electrical
+        limit = np.full(fs.shape, e["primary_turns"] / (e["primary_turns"]
+                                                       + e["reset_turns"]))
+    if _synchronous_freewheel(design):  # the off-time holds the two dead times
+        limit = np.minimum(limit, 1.0 - 2 * design.dead_time * fs)
+    return limit
 
 
 def duty_limit_reason(design) -> str:
     if design.topology == TWO_SWITCH:
-        return ("the core resets through the clamp diodes at the bus voltage, which takes "
+        text = ("the core resets through the clamp diodes at the bus voltage, which takes "
                 "as long as the on-time: at most 1/2")
-    e = _transformer_part(design).part.electrical
-    n_p, n_r = e["primary_turns"], e["reset_turns"]
-    return (f"the core must reset in the off-time at the reset winding's clamp voltage: "
-            f"at most N_p/(N_p + N_r) = {n_p:g}/({n_p:g} + {n_r:g}) = "
-            f"{n_p / (n_p + n_r):.3f}")
+    else:
+        e = _transformer_part(design).part.electrical
+        n_p, n_r = e["primary_turns"], e["reset_turns"]
+        text = (f"the core must reset in the off-time at the reset winding's clamp "
+                f"voltage: at most N_p/(N_p + N_r) = {n_p:g}/({n_p:g} + {n_r:g}) = "
+                f"{n_p / (n_p + n_r):.3f}")
+    if _synchronous_freewheel(design) and design.dead_time:
+        text += "; and the off-time must hold the two dead times of the freewheel MOSFET"
+    return text
 
 
 def _col(x):
@@ -195,6 +253,8 @@ def _mean_where(values, grid, mask, fallback):
 
 
 def evaluate(st: Stage) -> StageResult:
+    if "mosfet" in (st.devices[("rectifier", 0)].kind, st.devices[("freewheel", 0)].kind):
+        return _evaluate_sync(st)
     two = st.topology == TWO_SWITCH
     xf, ind = st.transformer, st.inductors[0]
     n = xf.n_s / xf.n_p
@@ -398,3 +458,272 @@ def evaluate(st: Stage) -> StageResult:
                        invalid=invalid, regime=regime,
                        notes=["switch and diode voltages are before any leakage spike or ringing",
                               "b_peak is the swing from zero flux: remanence is not included"])
+
+
+def _evaluate_sync(st: Stage) -> StageResult:
+    """Synchronous rectifiers: a MOSFET in the rectifier and/or the freewheel position
+    (see "Synchronous rectifiers" in the module docstring). Continuous conduction of
+    the output inductor throughout (forced by a freewheel MOSFET)."""
+    two = st.topology == TWO_SWITCH
+    xf, ind = st.transformer, st.inductors[0]
+    n = xf.n_s / xf.n_p
+    a_r = 1.0 if two else xf.n_p / xf.n_r
+    ts = 1.0 / st.fs
+    vin, vo, io = st.vin, st.vo, st.io
+    lm, l_out = xf.l_m, ind.l
+    sw = st.group("switch")
+    r_sw = sw[0].r_on + sw[1].r_on if two else sw[0].r_on
+    r_prim = r_sw + xf.r_p
+    q1, q2 = st.devices[("rectifier", 0)], st.devices[("freewheel", 0)]
+    sync_r, sync_f = q1.kind == "mosfet", q2.kind == "mosfet"
+    resets = st.group("reset")
+    if two:
+        v0_r = resets[0].v_f0 + resets[1].v_f0
+        r_rr = resets[0].r_d + resets[1].r_d + xf.r_p
+    else:
+        v0_r = resets[0].v_f0
+        r_rr = a_r ** 2 * (resets[0].r_d + xf.r_r)
+    z0 = np.zeros_like(vin)
+    # forward position in the on-time: channel (0 + R_on·i) or diode (v_f0 + r_d·i)
+    e1, r1 = (z0, q1.r_on) if sync_r else (q1.v_f0, q1.r_d)
+    # freewheel position: gated channel, and its body diode in the dead times
+    e2, r2 = (z0, q2.r_on) if sync_f else (q2.v_f0, q2.r_d)
+    td = st.dead_time if sync_f else 0.0
+    cin = st.capacitors[("input-capacitor", 0)]
+    cout = st.capacitors[("output-capacitor", 0)]
+
+    def _as(x, i):  # (N,) parameter against (N,) or (N, S) currents
+        x = np.asarray(x, dtype=float)
+        return x[:, None] if np.ndim(i) == 2 and x.ndim == 1 else x
+
+    def v_body(i):
+        return _as(q2.v_f0, i) + _as(q2.r_d, i) * i
+
+    def v_gated(i):
+        return _as(e2, i) + _as(r2, i) * i
+
+    v_on_src, v_rs_src = vin.copy(), vin.copy()
+    delta = np.zeros_like(vin)
+    n_seg = 5 * N_SUB
+    # mean inductor and magnetizing current of every piece in the last pass
+    m_p = np.repeat(io[:, None], n_seg, axis=1)
+    im_p = np.zeros_like(m_p)
+    means = np.repeat(io[:, None], 4, axis=1)  # on-time, dead A, gated off-time, dead B
+    duty = None
+    on_mask = np.repeat(np.array([True, False, False, False, False]), N_SUB)
+    for _ in range(MAX_PASSES):
+        v_src = v_on_src + r_prim * delta
+        m_on, m_a, m_c, m_b = means.T
+
+        def e_on_of(d):
+            return (v_src - r_prim * n * m_on) / (1 + r_prim * d * ts / lm / 2)
+
+        def v_on_of(d):
+            return n * e_on_of(d) - (xf.r_s + r1) * m_on - e1
+
+        def vout(d):
+            t_c = np.maximum((1 - d) * ts - 2 * td, 0.0)
+            dcr_drop = ind.dcr * (d * ts * m_on + td * (m_a + m_b) + t_c * m_c) / ts
+            return (d * v_on_of(d) - (td * (v_body(m_a) + v_body(m_b))
+                                      + t_c * v_gated(m_c)) / ts - dcr_drop)
+
+        new_duty, _ = solve_duty(vout, vo, 0.0, 1.0)
+        d = np.clip(new_duty, 1e-9, 1.0 - 1e-9)
+        t_on, t_off = d * ts, (1 - d) * ts
+        e_on = e_on_of(d)
+        i_mpk = np.maximum(e_on * t_on / lm - delta, 0.0)
+        v_reset = a_r * (v_rs_src + v0_r) + r_rr * i_mpk / 2
+        t_r = lm * i_mpk / v_reset
+        t_rc = np.minimum(t_r, t_off)
+        t_a = np.minimum(td, t_off)  # end of dead time A
+        t_b = np.maximum(t_off - td, t_a)  # start of dead time B
+        bp = np.sort(np.stack([z0, t_a, t_rc, t_b, t_off], axis=1), axis=1)
+        dt4 = np.diff(bp, axis=1)
+        mid = (bp[:, :-1] + bp[:, 1:]) / 2
+        live = dt4 > 0
+
+        def pieces(x):  # (N, 4) per off segment -> (N, 4·N_SUB) per piece
+            return np.repeat(x, N_SUB, axis=1)
+
+        seg_a = pieces(live & (mid < t_a[:, None]))
+        seg_b = pieces(live & (mid > t_b[:, None]))
+        seg_c = pieces(live) & ~seg_a & ~seg_b
+        body_off = seg_a | seg_b
+        reset_off = pieces(live & (mid < t_rc[:, None]))
+        idle_off = pieces(live) & ~reset_off
+        dt_off = pieces(dt4) / N_SUB
+        dt_on = np.repeat(t_on[:, None], N_SUB, axis=1) / N_SUB
+        grid = Grid(np.column_stack([dt_on, dt_off]))
+        # piece slopes at the piece-mean currents of the last pass
+        mo, mf = m_p[:, :N_SUB], m_p[:, N_SUB:]
+        e_on_pc = v_on_src[:, None] - _as(r_prim, mo) * (n * mo + im_p[:, :N_SUB])
+        v_on_pc = n * e_on_pc - _as(xf.r_s + r1, mo) * mo - _as(e1, mo)
+        v_fw = np.where(body_off, v_body(mf), v_gated(mf))
+        slope = np.column_stack([v_on_pc, -v_fw]) - ind.dcr * m_p - vo[:, None]
+        inc = slope / l_out[:, None] * grid.dt
+        a_rel = np.column_stack([z0, np.cumsum(inc, axis=1)[:, :-1]])
+        b_rel = a_rel + inc
+        level = io - (grid.dt * (a_rel + b_rel) / 2).sum(axis=1) / ts
+        i_l = grid.wave(a_rel + level[:, None], b_rel + level[:, None])
+        i_start = level
+        # magnetizing current: reset from I_m,pk down to zero in t_r, then the idle clamp
+        # (the forward position's diode or body diode beside the freewheel position)
+        v_cl = np.maximum(v_fw - np.asarray(q1.v_f0, dtype=float)[:, None], 0.0) / n
+        tau = np.column_stack([z0, np.cumsum(dt_off, axis=1)])
+        cum = np.column_stack([z0, np.cumsum(np.where(idle_off, v_cl * dt_off, 0.0),
+                                             axis=1)]) / lm[:, None]
+        safe_tr = np.where(t_r > 0, t_r, 1.0)[:, None]
+        im_reset = np.where(t_r[:, None] > 0,
+                            i_mpk[:, None] * np.maximum(1 - tau / safe_tr, 0.0), 0.0)
+        in_reset = np.column_stack([reset_off, np.zeros((len(d), 1), bool)]) | (
+            tau <= t_rc[:, None] * (1 - 1e-12))
+        im_tau = np.where(in_reset, im_reset, -cum)
+        delta_new = cum[:, -1]
+        on_ramp = np.linspace(0.0, 1.0, N_SUB + 1)[None, :]
+        im_on = -delta[:, None] + (i_mpk + delta)[:, None] * on_ramp
+        i_m = grid.wave(np.column_stack([im_on[:, :-1], im_tau[:, :-1]]),
+                        np.column_stack([im_on[:, 1:], im_tau[:, 1:]]))
+        on_ns = np.broadcast_to(on_mask, grid.dt.shape)
+        fz = np.zeros((len(d), N_SUB), bool)
+        reset_on = np.column_stack([fz, reset_off])
+        idle = np.column_stack([fz, idle_off])
+        body_ns = np.column_stack([fz, body_off])
+        off_ns = ~on_ns
+        i_sw = (i_l * n + i_m).only(on_ns)
+        i_clamp = (i_m / -n).only(idle)
+        i_fwd_on = i_l.only(on_ns)
+        i_free = i_l.only(off_ns) - i_clamp
+        i_mr = i_m.only(reset_on)
+        i_rst = i_mr * a_r
+        i_bus = i_sw - i_rst
+        i_dc = i_bus.mean()
+        i_cin = i_bus * -1 + i_dc
+        bus = capacitor_voltage_samples(i_cin, cin.c, cin.esr, vin)
+        v_on_new = mean_over_samples(bus, grid, on_mask)
+        v_rs_new = _mean_where(bus, grid, reset_on, v_on_new)
+        m_new = (i_l.a + i_l.b) / 2
+        im_new = (i_m.a + i_m.b) / 2
+        new_means = np.column_stack([
+            m_new[:, :N_SUB].mean(axis=1),
+            _seg_weighted(m_new[:, N_SUB:], dt_off, seg_a, i_l.b[:, N_SUB - 1]),
+            _seg_weighted(m_new[:, N_SUB:], dt_off, seg_c, io),
+            _seg_weighted(m_new[:, N_SUB:], dt_off, seg_b, i_start)])
+        done = (duty is not None
+                and np.allclose(new_duty, duty, rtol=PASS_RTOL, atol=0)
+                and np.allclose(v_on_new, v_on_src, rtol=PASS_RTOL, atol=0)
+                and np.allclose(v_rs_new, v_rs_src, rtol=PASS_RTOL, atol=0)
+                and np.allclose(delta_new, delta, rtol=1e-9, atol=1e-12)
+                and np.allclose(m_new, m_p, rtol=1e-9, atol=1e-9))
+        duty, v_on_src, v_rs_src, delta, means = (new_duty, v_on_new, v_rs_new, delta_new,
+                                                  new_means)
+        m_p, im_p = m_new, im_new
+        if done:
+            break
+
+    # blocking voltages ---------------------------------------------------------------------
+    isw_s, il_s, im_s = i_sw.samples(), i_l.samples(), i_m.samples()
+    e_on_s = bus - _col(r_prim) * isw_s
+    v_res_s = _col(a_r) * (bus + _col(v0_r)) + _col(r_rr) * im_s
+    v_out = capacitor_voltage_samples(i_l - io, cout.c, cout.esr, vo)
+    v_free_s = np.where(body_ns[:, :, None], _col(q2.v_f0) + _col(q2.r_d) * il_s,
+                        _col(e2) + _col(r2) * il_s)
+    v_cl_ns = np.column_stack([np.zeros((len(duty), N_SUB)), v_cl])[:, :, None]
+    v_block: dict = {}
+    if two:
+        for k, dev in enumerate(resets):
+            v_clamp = _col(dev.v_f0) + _col(dev.r_d) * im_s
+            v_block[("switch", k)] = np.maximum(_max_where(bus + v_clamp, reset_on),
+                                                _max_where(bus, idle))
+            v_rev_on = bus - _col(sw[k].r_on) * isw_s
+            v_block[("reset", k)] = np.maximum(_max_where(v_rev_on, on_ns),
+                                               _max_where(bus, idle))
+    else:
+        v_block[("switch", 0)] = np.maximum(_max_where(bus + v_res_s, reset_on),
+                                            _max_where(bus + v_cl_ns, idle))
+        v_block[("reset", 0)] = np.maximum(_max_where(bus + e_on_s / a_r, on_ns),
+                                           _max_where(bus, idle))
+    v_block[("rectifier", 0)] = np.maximum(_max_where(n * v_res_s - v_free_s, reset_on),
+                                           _max_where(-v_free_s, idle))
+    v_cathode_on = n * e_on_s - _col(xf.r_s + r1) * il_s - _col(e1)
+    v_block[("freewheel", 0)] = _max_where(v_cathode_on, on_ns)
+    v_block[("input-capacitor", 0)] = max_over(bus)
+    v_block[("output-capacitor", 0)] = max_over(v_out)
+
+    currents = {("inductor", 0): i_l, ("output-capacitor", 0): i_l - io,
+                ("input-capacitor", 0): i_cin}
+    body: dict = {}
+    # MOSFET channel current counts drain -> source; the body diode's direction is the
+    # diode's it replaces, so the forward current flows source -> drain: −i
+    if sync_r:
+        currents[("rectifier", 0)] = -i_fwd_on
+        body[("rectifier", 0)] = i_clamp
+    else:
+        currents[("rectifier", 0)] = i_fwd_on + i_clamp
+    if sync_f:
+        currents[("freewheel", 0)] = -(i_free.only(~body_ns))
+        body[("freewheel", 0)] = i_free.only(body_ns)
+    else:
+        currents[("freewheel", 0)] = i_free
+    for k in range(len(sw)):
+        currents[("switch", k)] = i_sw
+    for k in range(len(resets)):
+        currents[("reset", k)] = i_rst
+    i_fwd = i_fwd_on + i_clamp
+
+    if two:
+        p_wind = xf.r_p * (i_sw + i_mr).rms() ** 2 + xf.r_s * i_fwd.rms() ** 2
+    else:
+        p_wind = (xf.r_p * i_sw.rms() ** 2 + xf.r_s * i_fwd.rms() ** 2
+                  + xf.r_r * i_rst.rms() ** 2)
+    lam = mean_over_samples(e_on_s, grid, on_mask) * t_on
+    flux = np.maximum(lam - lm * delta, lm * delta)
+    b_peak = flux / (xf.n_p * xf.core_area) if xf.core_area else None
+
+    if two:
+        limit = "at most 1/2 with clamp diodes"
+    else:
+        limit = (f"lossless limit N_p/(N_p + N_r) = {xf.n_p:g}/({xf.n_p:g} + {xf.n_r:g}) = "
+                 f"{xf.n_p / (xf.n_p + xf.n_r):.3f}")
+    invalid = [
+        (t_r > t_off * (1 + 1e-9),
+         "the transformer does not reset within the off-time (the magnetizing current "
+         "would not return to zero before the next on-time and the core walks towards "
+         f"saturation; duty ratio {limit}); lower the duty ratio: raise the minimum input "
+         "voltage or the turns ratio N_s/N_p" + ("" if two else ", or use fewer reset "
+                                                "turns (higher reset voltage, higher "
+                                                "switch voltage)")),
+    ]
+    if sync_f and td > 0:
+        invalid.append((i_start <= 0,
+                        "the output inductor current is negative when the freewheel MOSFET "
+                        "turns off (light load in forced continuous conduction): in the "
+                        "dead time that follows neither body diode can carry it and the "
+                        "rectifier node is driven by the device capacitances (not "
+                        "modelled); raise the minimum load or the output inductance, or "
+                        "shorten the dead time to zero"))
+    if not sync_f:
+        invalid.append((i_start <= 0,
+                        "discontinuous conduction of the output inductor with a "
+                        "synchronous forward rectifier beside a freewheel diode is not "
+                        "modelled; use a MOSFET in the freewheel role too (forced "
+                        "continuous conduction), or raise the minimum load or the output "
+                        "inductance"))
+    notes = ["switch and diode voltages are before any leakage spike or ringing",
+             "b_peak is the swing from zero flux: remanence is not included"]
+    if np.any(i_start < 0):
+        notes.append("forced continuous conduction: the output inductor current turns "
+                     "negative at light load and the synchronous rectifiers carry it")
+    regime = np.full(len(duty), "CCM", dtype=object)
+    return StageResult(duty=duty, grid=grid, currents=currents, v_block=v_block,
+                       input_current=i_dc, winding_loss=p_wind, b_peak=b_peak,
+                       i_m_peak=i_mpk, i_l_start=i_start, i_m_start=-delta, body=body,
+                       invalid=invalid, regime=regime, notes=notes)
+
+
+def _seg_weighted(values, dt, mask, fallback):
+    """Time average of per-segment means ``values`` (N, S) over ``mask``; ``fallback``
+    where the masked segments have no duration."""
+    w = np.where(mask, dt, 0.0)
+    total = w.sum(axis=1)
+    return np.where(total > 0, (values * w).sum(axis=1) / np.where(total > 0, total, 1.0),
+                    fallback)
