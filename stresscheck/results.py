@@ -10,6 +10,7 @@ import hashlib
 
 from . import __version__, schema
 from .checks import ROLE_ORDER, summarise, uncovered
+from .report.cautions import CAUTIONS
 
 LOSSES_INCLUDED = (
     "MOSFET conduction: R_DS(on) at the solved junction temperature × I_rms²",
@@ -77,6 +78,7 @@ def build_results(evaluation, checks, policy) -> dict:
         "losses_included": list(LOSSES_INCLUDED),
         "losses_not_included": list(LOSSES_NOT_INCLUDED),
         "conventions": list(CONVENTIONS),
+        "cautions": list(CAUTIONS),
         "notes": list(evaluation.notes),
         "uncovered_quantities": uncovered(checks),
         "policy_rules": [r.as_dict() for r in policy.rules],
