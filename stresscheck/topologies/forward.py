@@ -252,6 +252,37 @@ def _mean_where(values, grid, mask, fallback):
     return np.where(total > 0, mean, fallback)
 
 
+def _magnetics(xf, two, i_sw, i_mr, i_fwd, i_rst, e_on_s, grid, on_mask, t_on, lm, delta,
+               t_r, t_off):
+    """Winding loss [W], peak flux density [T] and the reset check, shared by the diode
+    and synchronous paths.
+
+    Flux rises from −L_m·δ by the on-time's volt-seconds λ = ē_on·t_on (Faraday's law,
+    unipolar swing); B_peak = max(λ − L_m·δ, L_m·δ)/(N_p·A_e). The core must reset
+    within the off-time: t_r <= t_off, else the corner is refused.
+    """
+    if two:  # the primary carries the magnetizing current through the clamps in the reset
+        p_wind = xf.r_p * (i_sw + i_mr).rms() ** 2 + xf.r_s * i_fwd.rms() ** 2
+    else:
+        p_wind = (xf.r_p * i_sw.rms() ** 2 + xf.r_s * i_fwd.rms() ** 2
+                  + xf.r_r * i_rst.rms() ** 2)
+    lam = mean_over_samples(e_on_s, grid, on_mask) * t_on  # [V·s]
+    flux = np.maximum(lam - lm * delta, lm * delta)
+    b_peak = flux / (xf.n_p * xf.core_area) if xf.core_area else None
+    if two:
+        limit = "at most 1/2 with clamp diodes"
+    else:
+        limit = (f"lossless limit N_p/(N_p + N_r) = {xf.n_p:g}/({xf.n_p:g} + {xf.n_r:g}) = "
+                 f"{xf.n_p / (xf.n_p + xf.n_r):.3f}")
+    reason = ("the transformer does not reset within the off-time (the magnetizing current "
+              "would not return to zero before the next on-time and the core walks towards "
+              f"saturation; duty ratio {limit}); lower the duty ratio: raise the minimum "
+              "input voltage or the turns ratio N_s/N_p"
+              + ("" if two else ", or use fewer reset turns (higher reset voltage, higher "
+                 "switch voltage)"))
+    return p_wind, b_peak, (t_r > t_off * (1 + 1e-9), reason)
+
+
 def evaluate(st: Stage) -> StageResult:
     if "mosfet" in (st.devices[("rectifier", 0)].kind, st.devices[("freewheel", 0)].kind):
         return _evaluate_sync(st)
@@ -423,29 +454,10 @@ def evaluate(st: Stage) -> StageResult:
         currents[("reset", k)] = i_rst
 
     # transformer ---------------------------------------------------------------------------
-    if two:  # the primary carries the magnetizing current through the clamps in the reset
-        p_wind = xf.r_p * (i_sw + i_mr).rms() ** 2 + xf.r_s * i_fwd.rms() ** 2
-    else:
-        p_wind = (xf.r_p * i_sw.rms() ** 2 + xf.r_s * i_fwd.rms() ** 2
-                  + xf.r_r * i_rst.rms() ** 2)
-    # flux from −L_m·δ up by the on-time's volt-seconds [V·s]
-    lam = mean_over_samples(e_on_s, grid, MASK_ON) * t_on
-    flux = np.maximum(lam - lm * delta, lm * delta)
-    b_peak = flux / (xf.n_p * xf.core_area) if xf.core_area else None
-
-    if two:
-        limit = "at most 1/2 with clamp diodes"
-    else:
-        limit = (f"lossless limit N_p/(N_p + N_r) = {xf.n_p:g}/({xf.n_p:g} + {xf.n_r:g}) = "
-                 f"{xf.n_p / (xf.n_p + xf.n_r):.3f}")
+    p_wind, b_peak, reset_invalid = _magnetics(xf, two, i_sw, i_mr, i_fwd, i_rst, e_on_s,
+                                               grid, MASK_ON, t_on, lm, delta, t_r, t_off)
     invalid = [
-        (t_r > t_off * (1 + 1e-9),
-         "the transformer does not reset within the off-time (the magnetizing current "
-         "would not return to zero before the next on-time and the core walks towards "
-         f"saturation; duty ratio {limit}); lower the duty ratio: raise the minimum input "
-         "voltage or the turns ratio N_s/N_p" + ("" if two else ", or use fewer reset "
-                                                "turns (higher reset voltage, higher "
-                                                "switch voltage)")),
+        reset_invalid,
         (dcm & (d_dcm + d2_dcm > 1 + 1e-9),
          "the discontinuous-conduction solution of the output inductor does not fit in "
          "the period (model inconsistency near the CCM boundary); move the minimum load "
@@ -670,28 +682,10 @@ def _evaluate_sync(st: Stage) -> StageResult:
         currents[("reset", k)] = i_rst
     i_fwd = i_fwd_on + i_clamp
 
-    if two:
-        p_wind = xf.r_p * (i_sw + i_mr).rms() ** 2 + xf.r_s * i_fwd.rms() ** 2
-    else:
-        p_wind = (xf.r_p * i_sw.rms() ** 2 + xf.r_s * i_fwd.rms() ** 2
-                  + xf.r_r * i_rst.rms() ** 2)
-    lam = mean_over_samples(e_on_s, grid, on_mask) * t_on
-    flux = np.maximum(lam - lm * delta, lm * delta)
-    b_peak = flux / (xf.n_p * xf.core_area) if xf.core_area else None
-
-    if two:
-        limit = "at most 1/2 with clamp diodes"
-    else:
-        limit = (f"lossless limit N_p/(N_p + N_r) = {xf.n_p:g}/({xf.n_p:g} + {xf.n_r:g}) = "
-                 f"{xf.n_p / (xf.n_p + xf.n_r):.3f}")
+    p_wind, b_peak, reset_invalid = _magnetics(xf, two, i_sw, i_mr, i_fwd, i_rst, e_on_s,
+                                               grid, on_mask, t_on, lm, delta, t_r, t_off)
     invalid = [
-        (t_r > t_off * (1 + 1e-9),
-         "the transformer does not reset within the off-time (the magnetizing current "
-         "would not return to zero before the next on-time and the core walks towards "
-         f"saturation; duty ratio {limit}); lower the duty ratio: raise the minimum input "
-         "voltage or the turns ratio N_s/N_p" + ("" if two else ", or use fewer reset "
-                                                "turns (higher reset voltage, higher "
-                                                "switch voltage)")),
+        reset_invalid,
     ]
     if sync_f and td > 0:
         invalid.append((i_start <= 0,
