@@ -35,18 +35,14 @@ it is −i_L.
 
 from __future__ import annotations
 
-import numpy as np
-
 from ..errors import InputError
 from . import Layout, RoleSpec, Stage, StageResult
 from . import switching_cell as cell
-from .buck import check_options, synchronous
+from . import buck
+from .buck import check_options
 
-# Largest duty ratio of a diode boost when the design gives no max_duty [1]: the
-# controller's minimum off-time (common practice for PWM controllers, typically 5 % of
-# the period or more), which also keeps the converter clear of the peak of its lossy
-# conversion ratio, where the output no longer rises with the duty ratio.
-DIODE_MAX_DUTY = 0.95
+# The diode boost's duty limit is the buck's DIODE_MAX_DUTY (the controller's minimum
+# off-time), which also keeps it clear of the peak of its lossy conversion ratio.
 
 
 def layout(design) -> Layout:
@@ -70,25 +66,13 @@ def layout(design) -> Layout:
 
 
 def duty_limit(design, fs):
-    """Largest duty ratio of the switch [1].
-
-    Synchronous: the period holds the on-time and two dead times (one at each
-    transition), D <= 1 − 2·t_d·fs. Diode: the controller's ``max_duty`` if given, else
-    DIODE_MAX_DUTY; the dead time does not apply (one controlled switch).
-    """
-    if synchronous(design, "rectifier"):
-        return 1.0 - 2 * design.dead_time * np.asarray(fs, dtype=float)
-    limit = design.max_duty if design.max_duty is not None else DIODE_MAX_DUTY
-    return np.full(np.shape(fs), limit)
+    """Largest duty ratio of the switch [1]: as the buck's, with the rectifier as the
+    passive (or synchronous) device."""
+    return buck.duty_limit(design, fs, "rectifier")
 
 
 def duty_limit_reason(design) -> str:
-    if synchronous(design, "rectifier"):
-        return "the low-side on-time and the two dead times fill the period"
-    if design.max_duty is not None:
-        return "the controller's minimum off-time"
-    return (f"a diode boost needs a minimum off-time each period (assumed "
-            f"{100 * (1 - DIODE_MAX_DUTY):.0f} %; give max_duty to set it)")
+    return buck.duty_limit_reason(design, "rectifier")
 
 
 def evaluate(st: Stage) -> StageResult:

@@ -106,7 +106,6 @@ def layout(design) -> Layout:
         raise InputError(path, f"{rect_comps[0].key}.part", "the rectifiers of a bridge "
                          "must all be diodes or all MOSFETs (synchronous rectifiers); "
                          "mixed rectifiers are not modelled")
-    sync = kinds == ["mosfet"]
     rect_kinds = ("diode", "mosfet")
     if design.modulation != "pwm":
         if top != "full-bridge":
@@ -309,7 +308,6 @@ def _evaluate_pwm(st: Stage) -> StageResult:
         i_m_new = lam / (2 * xf.l_m)
         i_l = [inductor_wave(grid, uk, ind.l, io / len(u))
                for uk, ind in zip(u, st.inductors)]
-        z = np.zeros(grid.shape)
         im_a = np.where(MASK_ON1, -1.0, np.where(MASK_ON2 | MASK_FW1, 1.0, -1.0))
         im_b = np.where(MASK_ON2 | MASK_FW2, -1.0, 1.0)
         mag = grid.wave(im_a[None, :] * i_m_new[:, None], im_b[None, :] * i_m_new[:, None])

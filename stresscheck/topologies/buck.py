@@ -78,25 +78,26 @@ def synchronous(design, role: str) -> bool:
     return bool(comps) and comps[0].part.kind == "mosfet"
 
 
-def duty_limit(design, fs):
-    """Largest duty ratio of the switch [1].
+def duty_limit(design, fs, passive_role: str = "freewheel"):
+    """Largest duty ratio of the switch [1] (buck; the boost passes ``"rectifier"``).
 
     Synchronous: the period holds the on-time and two dead times (one at each
     transition), D <= 1 − 2·t_d·fs. Diode: the controller's ``max_duty`` if given, else
     DIODE_MAX_DUTY; the dead time does not apply (one controlled switch).
     """
-    if synchronous(design, "freewheel"):
+    if synchronous(design, passive_role):
         return 1.0 - 2 * design.dead_time * np.asarray(fs, dtype=float)
     limit = design.max_duty if design.max_duty is not None else DIODE_MAX_DUTY
     return np.full(np.shape(fs), limit)
 
 
-def duty_limit_reason(design) -> str:
-    if synchronous(design, "freewheel"):
-        return "the high-side on-time and the two dead times fill the period"
+def duty_limit_reason(design, passive_role: str = "freewheel") -> str:
+    side, name = ("high", "buck") if passive_role == "freewheel" else ("low", "boost")
+    if synchronous(design, passive_role):
+        return f"the {side}-side on-time and the two dead times fill the period"
     if design.max_duty is not None:
         return "the controller's minimum off-time"
-    return (f"a diode buck needs a minimum off-time each period (assumed "
+    return (f"a diode {name} needs a minimum off-time each period (assumed "
             f"{100 * (1 - DIODE_MAX_DUTY):.0f} %; give max_duty to set it)")
 
 
