@@ -32,6 +32,10 @@ def _parser() -> argparse.ArgumentParser:
                    help="parts library folder (repeatable; searched first)")
     c.add_argument("--policy", default="commercial", metavar="NAME_OR_FILE")
     c.add_argument("--out", type=Path, default=Path(DEFAULT_OUT), metavar="DIR")
+    c.add_argument("--bom", type=Path, default=None, metavar="FILE",
+                   help="BOM (CSV or XLSX): its parts replace the design's for its refs")
+    c.add_argument("--swap", action="append", default=[], metavar="REF=PART",
+                   help="put PART at REF (repeatable; after --bom)")
     d = sub.add_parser("demo", help="run the shipped demo design")
     d.add_argument("--out", type=Path, default=Path(DEFAULT_OUT), metavar="DIR")
     v = sub.add_parser("verify", help="compare computed stresses with ngspice at the "
@@ -41,6 +45,27 @@ def _parser() -> argparse.ArgumentParser:
     v.add_argument("--policy", default="commercial", metavar="NAME_OR_FILE")
     v.add_argument("--keep", type=Path, default=None, metavar="DIR",
                    help="keep the netlists and simulated results in DIR")
+    f = sub.add_parser("diff", help="compare two results.json files check by check")
+    f.add_argument("old", type=Path)
+    f.add_argument("new", type=Path)
+    f.add_argument("--threshold", type=float, default=None, metavar="PERCENT",
+                   help="smallest ratio change reported, in %% of allowed (default 1)")
+    f.add_argument("--out", type=Path, default=None, metavar="DIR",
+                   help="also write diff.html and diff.xlsx into DIR")
+    a = sub.add_parser("alternates", help="rank the library parts that fit one designator")
+    a.add_argument("design", type=Path)
+    a.add_argument("ref")
+    a.add_argument("--parts", action="append", type=Path, default=[], metavar="DIR")
+    a.add_argument("--policy", default="commercial", metavar="NAME_OR_FILE")
+    a.add_argument("--out", type=Path, default=None, metavar="DIR",
+                   help="also write alternates.json and alternates.html into DIR")
+    pl = sub.add_parser("parts", help="part library tools")
+    psub = pl.add_subparsers(dest="parts_command", required=True)
+    pc = psub.add_parser("check", help="validate every part sheet of a folder")
+    pc.add_argument("folder", type=Path)
+    pi = psub.add_parser("import", help="turn a CSV/XLSX parts table into part sheets")
+    pi.add_argument("table", type=Path)
+    pi.add_argument("--out", type=Path, default=Path("parts-imported"), metavar="DIR")
     return p
 
 
@@ -48,8 +73,12 @@ def demo_design() -> Path:
     return Path(str(resources.files("stresscheck.demo") / "design.toml"))
 
 
-def run_check(design_path: Path, parts, policy_name, out_dir: Path, *, date=None):
-    """Load, evaluate, check and write the reports. Returns (results, paths, checks)."""
+def run_check(design_path: Path, parts, policy_name, out_dir: Path, *, date=None,
+              bom=None, swaps=()):
+    """Load, evaluate, check and write the reports. Returns (results, paths, checks).
+
+    ``bom`` (a BOM file) and ``swaps`` ("REF=PART" texts) replace parts of the design
+    before it is evaluated; what they changed is recorded in results["substitutions"]."""
     import numpy as np
 
     from .checks import run_checks
@@ -61,6 +90,7 @@ def run_check(design_path: Path, parts, policy_name, out_dir: Path, *, date=None
 
     out_dir = Path(out_dir)
     design = load_design(design_path, parts)
+    design, bom_record = _substitute(design, parts, bom, swaps)
     policy = load_policy(policy_name)
     _refuse_inputs_as_output(out_dir, design, policy)
     check_output(out_dir)  # a foreign file in the way: refuse before any work is done
@@ -70,10 +100,40 @@ def run_check(design_path: Path, parts, policy_name, out_dir: Path, *, date=None
         evaluation = run(design)
         checks = run_checks(evaluation, policy)
         results = build_results(evaluation, checks, policy)
+    if bom_record is not None:
+        results.update(bom_record)
     _refuse_non_finite(results, design)
     context = {"date": date or _dt.date.today().isoformat(), "tool_version": __version__}
     paths = write_reports(results, context, out_dir)
     return results, paths, checks
+
+
+def _substitute(design, parts, bom, swaps):
+    """Apply the BOM's parts, then the --swap options; None when neither is given."""
+    if bom is None and not swaps:
+        return design, None
+    from .bom import bom_columns, read_bom
+    from .substitution import Substitution, apply, library_for
+
+    subs, record = [], {}
+    refs = [r for c in design.components for r in c.refs]
+    if bom is not None:
+        sheet = read_bom(bom, bom_columns(design.path))
+        subs += sheet.substitutions
+        from .results import file_sha256
+        record["bom"] = {
+            "name": Path(bom).name, "sha256": file_sha256(Path(bom)),
+            "not_in_design": [r for r in sheet.refs if r not in refs],
+            "not_in_bom": [r for r in refs if r not in sheet.refs]}
+        subs = [s for s in subs if s.ref in refs]  # listed above, not an error
+    for i, text in enumerate(swaps):
+        ref, sep, part = str(text).partition("=")
+        if not sep or not ref.strip() or not part.strip():
+            raise InputError(None, "--swap", f"expected REF=PART, got {text!r}")
+        subs.append(Substitution(ref.strip(), part.strip(), "--swap", f"--swap {text}"))
+    design, changes = apply(design, subs, library_for(design, parts))
+    record["substitutions"] = changes
+    return design, record
 
 
 def _input_paths(design, policy) -> list[Path]:
@@ -163,13 +223,82 @@ def _print_findings(results, limit=12):
 
 def cmd_check(args) -> int:
     from .checks import exit_status
-    results, paths, checks = run_check(args.design, args.parts, args.policy, args.out)
+    results, paths, checks = run_check(args.design, args.parts, args.policy, args.out,
+                                       bom=args.bom, swaps=args.swap)
     print(f"{results['design']}: {len(results['checks'])} checks over "
           f"{len(results['corners'])} corners, policy '{results['policy']}'")
+    _print_substitutions(results)
     print(_summary_line(results))
     _print_findings(results)
     print(f"reports: {paths['html']}, {paths['xlsx']}, {paths['json']}")
     return exit_status(checks)
+
+
+def _print_substitutions(results) -> None:
+    bom = results.get("bom")
+    if bom:
+        print(f"  BOM {bom['name']}: {len(results.get('substitutions') or ())} part(s) "
+              "changed")
+        if bom["not_in_design"]:
+            print("  in the BOM but not in the design: " + ", ".join(bom["not_in_design"]))
+        if bom["not_in_bom"]:
+            print("  in the design but not in the BOM (design's part kept): "
+                  + ", ".join(bom["not_in_bom"]))
+    for change in results.get("substitutions") or ():
+        print(f"  {change['ref']}: {change['before']} -> {change['after']} "
+              f"({change['source']})")
+
+
+def cmd_diff(args) -> int:
+    from .diff import DEFAULT_THRESHOLD, compare, format_text
+    threshold = DEFAULT_THRESHOLD if args.threshold is None else args.threshold / 100
+    if not math.isfinite(threshold) or threshold < 0:
+        raise InputError(None, "--threshold", "must be a percentage of 0 or more")
+    cmp = compare(args.old, args.new, threshold)
+    for line in format_text(cmp):
+        print(line)
+    if args.out is not None:
+        from .report.pages import render_diff_html, render_diff_xlsx, write_pages
+        paths = write_pages(args.out, {"diff.html": render_diff_html(cmp).encode("utf-8"),
+                                       "diff.xlsx": render_diff_xlsx(cmp)})
+        print("written: " + ", ".join(str(p) for p in paths.values()))
+    return 1 if cmp.got_worse else 0
+
+
+def cmd_alternates(args) -> int:
+    import json
+
+    from .alternates import alternates_json, rank_alternates
+    from .design import load_design
+    from .policy import load_policy
+    from .substitution import library_for
+
+    design = load_design(args.design, args.parts)
+    policy = load_policy(args.policy)
+    report = rank_alternates(design, args.ref, library_for(design, args.parts), policy)
+    print(f"{report['design']}: alternates for {report['ref']} ({report['role']}), "
+          f"current part {report['current']}, policy '{report['policy']}'")
+    print(f"  {'#':>3}  {'part':32s} {'worst ratio':>11s}  {'status':12s} rejected by")
+    for i, a in enumerate(report["alternates"], 1):
+        ratio = "—" if a["worst_ratio"] is None else f"{100 * a['worst_ratio']:.1f} %"
+        why = ", ".join(a["rejected_by"]) or (a["reason"][:60] if a["reason"] else "")
+        mark = " *" if a["part"] == report["current"] else ""
+        print(f"  {i:>3}  {a['part'] + mark:32s} {ratio:>11s}  {a['status']:12s} {why}")
+    if args.out is not None:
+        from .report.pages import render_alternates_html, write_pages
+        text = json.dumps(alternates_json(report), indent=2, ensure_ascii=False) + "\n"
+        paths = write_pages(args.out, {
+            "alternates.json": text.encode("utf-8"),
+            "alternates.html": render_alternates_html(report).encode("utf-8")})
+        print("written: " + ", ".join(str(p) for p in paths.values()))
+    return 0
+
+
+def cmd_parts(args) -> int:
+    from . import library_tools
+    if args.parts_command == "check":
+        return library_tools.check_folder(args.folder)
+    return library_tools.import_table(args.table, args.out)
 
 
 def cmd_demo(args) -> int:
@@ -212,7 +341,8 @@ def _one_line(text: str) -> str:
 
 def main(argv=None) -> int:
     args = _parser().parse_args(argv)
-    handlers = {"check": cmd_check, "demo": cmd_demo, "verify": cmd_verify}
+    handlers = {"check": cmd_check, "demo": cmd_demo, "verify": cmd_verify,
+                "diff": cmd_diff, "alternates": cmd_alternates, "parts": cmd_parts}
     try:
         return handlers[args.command](args)
     except InputError as exc:
@@ -224,6 +354,12 @@ def main(argv=None) -> int:
     except KeyboardInterrupt:
         print("stresscheck: interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:  # output piped into a pager or head that closed early
+        try:
+            sys.stdout = open(os.devnull, "w")
+        except OSError:
+            pass
+        return 0
     except Exception as exc:  # last resort: a bug, but never a traceback for a user
         text = _one_line(" ".join(str(exc).split()))[:500]
         print(f"stresscheck: internal error: {type(exc).__name__}: {text} (please report)",

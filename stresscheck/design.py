@@ -90,7 +90,7 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
             raise InputError(folder, None, "--parts expects a folder of part sheets, but "
                              "this is a file")
     doc = read_toml(path, "design file")
-    check_keys(doc, ("schema", "converter", "operating", "components"), path)
+    check_keys(doc, ("schema", "converter", "operating", "components", "bom"), path)
     version = require_str(doc, "schema", path)
     if version != schema.DESIGN_SCHEMA:
         raise InputError(path, "schema", f"unknown schema version {shorten(version)}; "
