@@ -39,6 +39,7 @@ from invariants import assert_charge_balance, assert_energy_balance, \
     assert_one_rating_row_per_stress
 from stresscheck.checks import run_checks
 from stresscheck.design import load_design
+from stresscheck.devices import build_devices
 from stresscheck.engine import build_stage, run
 from stresscheck.errors import InputError, RegulationError
 from stresscheck.policy import load_policy
@@ -191,8 +192,12 @@ def test_reset_check_at_every_corner(tmp_path):
     d = load_design(write_case(tmp_path, design, parts))
     from stresscheck.corners import build_corners
     corners = build_corners(d)
-    fets = {("switch", 0): np.full(corners.size, 0.03)}
-    res = fwd_model.evaluate(build_stage(d, corners, fets))
+    devices = build_devices(d, corners)
+    # every device at 25 degC: the switch's R_DS(on) is its 30 mohm headline value
+    t = {dev.key: np.full(corners.size, 25.0) for dev in devices}
+    stage = build_stage(d, corners, devices, t)
+    np.testing.assert_allclose(stage.devices[("switch", 0)].r_on, 0.03)
+    res = fwd_model.evaluate(stage)
     mask, reason = res.invalid[0]
     ts = 1 / corners["switching_frequency"]
     t_r = res.grid.dt[:, 1]  # CCM: segment 1 is the reset (clipped to the off-time)

@@ -5,7 +5,7 @@ import pytest
 
 from stresscheck.checks import check_stress, exit_status
 from stresscheck.corners import CornerSet
-from stresscheck.engine import Stress
+from stresscheck.evaluation import Stress
 from stresscheck.parts import Part
 from stresscheck.policy import Policy, Rule, load_policy
 

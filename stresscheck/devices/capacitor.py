@@ -1,0 +1,81 @@
+"""Capacitor: capacitance with its tolerance, ESR loss, hot spot and electrolytic life."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .. import schema
+from ..corners import tolerance_column
+from ..topologies import CapacitorBank, StageResult
+from .base import DeviceModel, Losses, Row, StageParts, Temperature
+
+LIFE_STEP = 10.0  # [K] per halving of electrolytic life
+LIFE_CAP = 15 * 365.25 * 24 * 3600.0  # [s] 15 years: beyond is theoretical (common practice)
+
+
+def capacitor_life(technology, life_rated, t_max, t_hotspot):
+    """Expected life [s] at the hot-spot temperature.
+
+    Wet aluminium electrolytic: L = L0·2^((T_max − T_hs)/10 K) (the "×2 per 10 °C" rule of
+    capacitor makers' life notes; docs/derating-sources.md §7, S20).
+    Aluminium polymer: L = L0·10^((T_max − T_hs)/20 K) (the "×10 per 20 °C" rule of
+    polymer makers' notes; docs/derating-sources.md §8 — from memory, medium confidence).
+    Both hold roughly between 70 °C and T_max and are capped at 15 years.
+
+    Parameters
+    ----------
+    technology : str
+        ``al-electrolytic`` or ``al-polymer`` (schema.LIFE_TECHNOLOGIES).
+    life_rated : float
+        Rated life L0 at T_max [s].
+    t_max : float
+        Rated temperature [degC].
+    t_hotspot : ndarray
+        Hot-spot temperature [degC].
+
+    Returns
+    -------
+    ndarray
+        Expected life [s], at most 15 years.
+    """
+    if technology == "al-polymer":
+        life = life_rated * np.power(10.0, (t_max - t_hotspot) / 20.0)
+    else:
+        life = life_rated * np.power(2.0, (t_max - t_hotspot) / LIFE_STEP)
+    return np.minimum(life, LIFE_CAP)
+
+
+class Capacitor(DeviceModel):
+    """An input, output or split capacitor bank (one position for all its refs)."""
+
+    kind = "capacitor"
+
+    def add_to(self, parts: StageParts, t: np.ndarray) -> None:
+        c = tolerance_column(self.corners, self.component, "capacitance",
+                             self.part.spread("capacitance").nom)
+        parts.capacitors[self.key] = CapacitorBank(
+            c * self.devices, self.electrical.get("esr", 0.0) / self.devices)
+
+    def _i_rms(self, result: StageResult) -> np.ndarray:
+        return result.currents[self.key].rms() / self.devices
+
+    def losses(self, result: StageResult, t: np.ndarray) -> Losses:
+        esr = self.electrical.get("esr")
+        return {} if esr is None else {"esr": esr * self._i_rms(result) ** 2}
+
+    def stresses(self, result: StageResult, losses: Losses,
+                 temperature: Temperature) -> list[Row]:
+        rows = [Row("v_peak", result.v_block[self.key]),
+                Row("i_ripple_rms", self._i_rms(result))]
+        if "esr" not in losses:
+            temperature = Temperature(np.full(self.size, np.nan), "no ESR on the part sheet")
+        rows.append(Row("t_hotspot", temperature.values, temperature.reason))
+        if self.part.technology in schema.LIFE_TECHNOLOGIES:
+            r = self.part.ratings
+            if not temperature.computed or "life" not in r or "t_max" not in r:
+                rows.append(Row("life", np.full(self.size, np.nan),
+                                "needs life, t_max, ESR and r_th"))
+            else:
+                rows.append(Row("life", capacitor_life(self.part.technology, r["life"],
+                                                       r["t_max"], temperature.values)))
+        return rows

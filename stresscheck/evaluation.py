@@ -1,0 +1,53 @@
+"""What an evaluation of a design holds: every stress of every ref at every corner.
+
+The engine produces these; checks, results and the ngspice cross-check read them.
+Every array is (N,) over the corners (or Monte Carlo samples); NaN marks a value that is
+not computed.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .corners import CornerSet
+from .topologies import Stage, StageResult
+
+
+@dataclass
+class Stress:
+    """One quantity of one ref at every corner."""
+
+    ref: str
+    component: object
+    quantity: str
+    values: np.ndarray  # (N,) [SI], NaN where not computed
+    applicable: np.ndarray  # (N,) bool: corners that count for this quantity
+    reason: str = ""  # why not computed, if so
+
+
+@dataclass
+class Evaluation:
+    """The solved design: model waveforms, temperatures, losses and stresses."""
+
+    design: object
+    corners: CornerSet
+    result: StageResult
+    stage: Stage
+    stresses: list[Stress]
+    # temperature [degC] of every device in the electro-thermal loop, by position key
+    t_j: dict[tuple[str, int], np.ndarray]
+    # corners where that loop ran away, by position key
+    runaway: dict[tuple[str, int], np.ndarray]
+    p_in: np.ndarray  # [W]
+    p_out: np.ndarray  # [W]
+    p_loss: np.ndarray  # [W] sum of every computed loss
+    notes: list[dict] = field(default_factory=list)
+    # loss terms of one device of each ref: ref -> term -> (N,) [W]
+    losses: dict[str, dict[str, np.ndarray]] = field(default_factory=dict)
+
+    def circuit_at(self, i: int):
+        """The circuit of corner ``i`` for ngspice (see ``engine.circuit_at``)."""
+        from .engine import circuit_at
+        return circuit_at(self, i)
