@@ -149,8 +149,33 @@ def solve_temperatures(design, corners: CornerSet, devices: list[DeviceModel]):
 def _temperature_step(devices: list[DeviceModel], result: StageResult,
                       t: dict[Key, np.ndarray], t_a: np.ndarray) -> dict[Key, np.ndarray]:
     """One pass of the loop: each device's temperature [degC] from its losses at ``t``."""
-    return {d.key: d.temperature(d.total(d.losses(result, t[d.key])), t_a).values
-            for d in devices}
+    p = {d.key: d.total(d.losses(result, t[d.key])) for d in devices}
+    return {key: temperature.values
+            for key, temperature in thermal_network(devices, p, t_a).items()}
+
+
+def thermal_network(devices: list[DeviceModel], p: dict[Key, np.ndarray],
+                    t_a: np.ndarray) -> dict[Key, Temperature]:
+    """Temperatures of ``devices`` from their dissipations: the one place where devices
+    meet thermally. Each device reaches ambient through its own path today
+    (T = T_a + P·R_th, ``DeviceModel.temperature``); devices that share a heatsink would
+    be coupled here, from the summed losses of every device on it.
+
+    Parameters
+    ----------
+    devices : list of DeviceModel
+        The devices whose temperatures are wanted.
+    p : dict
+        Position key -> dissipation of one device [W], (N,), of at least ``devices``.
+    t_a : ndarray
+        Ambient temperature [degC], (N,).
+
+    Returns
+    -------
+    dict
+        Position key -> Temperature [degC], (N,).
+    """
+    return {d.key: d.temperature(p[d.key], t_a) for d in devices}
 
 
 def _check_model(design, corners, result: StageResult, stage: Stage):
@@ -200,20 +225,22 @@ def derive(devices: list[DeviceModel], corners: CornerSet, result: StageResult,
     stresses: list[Stress] = []
     losses_by_ref: dict[str, dict[str, np.ndarray]] = {}
     p_loss = np.zeros(corners.size)
+    losses = {d.key: d.losses(result, t[d.key]) for d in devices}
+    p = {d.key: d.total(losses[d.key]) for d in devices}
+    temperatures = thermal_network([d for d in devices if not d.thermal_feedback], p, t_a)
     for device in devices:
-        losses = device.losses(result, t[device.key])
-        p_device = device.total(losses)
-        if losses:
-            p_loss += device.position_loss(p_device)
+        key = device.key
+        if losses[key]:
+            p_loss += device.position_loss(p[key])
         if not device.thermal_feedback:
-            temperature = device.temperature(p_device, t_a)
+            temperature = temperatures[key]
         elif device.r_th is None:
             temperature = Temperature(np.full(corners.size, np.nan), device.no_path_reason)
-        else:
-            temperature = Temperature(np.where(runaway[device.key], np.inf, t[device.key]))
-        rows = device.stresses(result, losses, temperature)
+        else:  # the loop's own solution
+            temperature = Temperature(np.where(runaway[key], np.inf, t[key]))
+        rows = device.stresses(result, losses[key], temperature)
         for ref in device.refs:
-            losses_by_ref[ref] = losses
+            losses_by_ref[ref] = losses[key]
             for row in rows:
                 voltage = schema.QUANTITIES[row.quantity].family == "voltage"
                 stresses.append(Stress(ref, device.component, row.quantity,
