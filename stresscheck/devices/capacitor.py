@@ -60,6 +60,8 @@ class Capacitor(DeviceModel):
         return result.currents[self.key].rms() / self.devices
 
     def losses(self, result: StageResult, t: np.ndarray) -> Losses:
+        """``esr``: ESR·I_rms² [W] per device, the Joule loss of the equivalent series
+        resistance as the sheet gives it (common practice); none without an ESR."""
         esr = self.electrical.get("esr")
         return {} if esr is None else {"esr": esr * self._i_rms(result) ** 2}
 

@@ -77,6 +77,7 @@ class Diode(DeviceModel):
         return i, i.mean() / self.devices, i.rms() / self.devices
 
     def losses(self, result: StageResult, t: np.ndarray) -> Losses:
+        """``conduction``: v_f0·I_avg + r_d·I_rms² [W] per device (``diode_loss``)."""
         e = self.electrical
         _, i_avg, i_rms = self._currents(result)
         return {"conduction": diode_loss(e["v_f0"], e.get("r_d", 0.0), i_avg, i_rms)}

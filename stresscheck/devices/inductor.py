@@ -21,6 +21,9 @@ class Inductor(DeviceModel):
             inductance, self.electrical.get("dcr", 0.0) / self.devices))
 
     def losses(self, result: StageResult, t: np.ndarray) -> Losses:
+        """``copper``: DCR·I_rms² [W] per device, the Joule loss of the winding's DC
+        resistance (no skin or proximity effect, no core loss; common practice); none
+        without a DCR."""
         dcr = self.electrical.get("dcr")
         if dcr is None:
             return {}

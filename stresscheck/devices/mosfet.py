@@ -98,8 +98,9 @@ class Mosfet(DeviceModel):
             r_ds_on_at(self.part, t) / self.devices)
 
     def losses(self, result: StageResult, t: np.ndarray) -> Losses:
-        """Conduction loss per device [W]: R_DS(on)·I_ch,rms² for the channel, plus
-        v_f0·I_avg + r_d·I_rms² for the body diode where the model has it conduct."""
+        """``conduction``: R_DS(on)(T_j)·I_ch,rms² [W] per device, the Joule loss of the
+        channel (common practice); ``body_diode``: v_f0·I_avg + r_d·I_rms² [W] where the
+        model has the body diode conduct (``diode_loss``)."""
         i_channel = result.currents[self.key].rms() / self.devices
         out = {"conduction": r_ds_on_at(self.part, t) * i_channel ** 2}
         body = result.body.get(self.key)

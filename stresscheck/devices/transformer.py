@@ -40,6 +40,8 @@ class Transformer(DeviceModel):
                                       e.get("r_reset", 0.0), e.get("leakage_inductance", 0.0))
 
     def losses(self, result: StageResult, t: np.ndarray) -> Losses:
+        """``copper``: Σ R·I_rms² over the windings [W], as the converter model computes
+        it from each winding's current (no core loss)."""
         return {"copper": result.winding_loss}
 
     def position_loss(self, p_device: np.ndarray) -> np.ndarray:
