@@ -15,7 +15,7 @@ from .errors import InputError
 from .parts import Part, PartLibrary, shipped_library
 from .tomlio import (check_keys, optional_text, read_toml, require_str, require_table,
                      shorten, type_name)
-from .topologies import layout_for
+from .topologies import check_envelope, layout_for
 from .units import Spread, parse_quantity, parse_spread
 
 
@@ -160,37 +160,10 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
                     vin, surge, vo, io, ilim, ta)
     library = PartLibrary(part_folders(path, parts_dirs))
     design.components = _load_components(doc, path, library)
-    check_plausibility(design)  # before layout_for: also for topologies not modelled yet
+    check_envelope(design)  # what the topology cannot produce, before its options
     layout = layout_for(design)  # raises on unsupported combinations
     layout.validate(design)
     return design
-
-
-def check_plausibility(design: Design) -> None:
-    """Refuse operating envelopes the topology cannot produce, naming the key.
-
-    A buck only steps down: its output must stay below the lowest input voltage (duty
-    ratio D = Vo/Vin < 1 at every corner). A boost only steps up: its output must stay
-    above the highest input voltage (D = 1 - Vin/Vo > 0). Each switch of a bridge-family
-    converter conducts at most half a period, so a controller limit max_duty above 50 %
-    cannot apply. (The transformer ratio of isolated converters is checked per corner by
-    the engine, which raises RegulationError.)
-    """
-    path, top = design.path, design.topology
-    vin, vo = design.input_voltage, design.output_voltage
-    if top == "buck" and vo.max >= vin.min:
-        raise InputError(path, "operating.output_voltage", f"a buck converter only steps "
-                         f"down: the output ({vo.max:g} V at most) must stay below the "
-                         f"lowest input voltage ({vin.min:g} V, operating.input_voltage)")
-    if top == "boost" and vo.min <= vin.max:
-        raise InputError(path, "operating.output_voltage", f"a boost converter only steps "
-                         f"up: the output ({vo.min:g} V at least) must stay above the "
-                         f"highest input voltage ({vin.max:g} V, operating.input_voltage)")
-    if (top in schema.BRIDGE_TOPOLOGIES and design.max_duty is not None
-            and design.max_duty > 0.5):
-        raise InputError(path, "converter.max_duty", f"each switch of a {top} conducts at "
-                         f"most 50 % of the period; a max_duty of {100 * design.max_duty:g} % "
-                         "cannot apply (it is the limit per switch)")
 
 
 def _load_components(doc, path, library) -> list[Component]:

@@ -9,6 +9,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from .topologies.registry import TOPOLOGIES as _MODELS
+
 PART_SCHEMA = "stresscheck.part/1"
 DESIGN_SCHEMA = "stresscheck.design/1"
 POLICY_SCHEMA = "stresscheck.policy/1"
@@ -25,9 +27,8 @@ TECHNOLOGIES = {
     "transformer": ("ferrite", "other"),
 }
 
-TOPOLOGIES = ("full-bridge", "half-bridge", "push-pull", "forward", "two-switch-forward",
-              "flyback", "buck", "boost")
-BRIDGE_TOPOLOGIES = ("full-bridge", "half-bridge", "push-pull")
+# The topologies a design may name: exactly those the registry has a model for.
+TOPOLOGIES = tuple(_MODELS)
 RECTIFIERS = ("center-tap", "full-bridge", "current-doubler")
 MODULATIONS = ("pwm", "phase-shift")
 

@@ -114,8 +114,13 @@ class PWL:
     def max(self) -> np.ndarray:
         return np.maximum(self.a, self.b).max(axis=1)
 
-    def min(self) -> np.ndarray:
-        return np.minimum(self.a, self.b).min(axis=1)
+    def min(self, mask=None) -> np.ndarray:
+        """Smallest value (N,); with ``mask`` (S,) or (N, S), over the segments where it
+        holds only (+inf at a corner where none does)."""
+        low = np.minimum(self.a, self.b)
+        if mask is not None:
+            low = np.where(mask, low, np.inf)
+        return low.min(axis=1)
 
     def mean_over(self, mask) -> np.ndarray:
         """Time average over the segments where ``mask`` is true (N,)."""
@@ -151,26 +156,82 @@ def capacitor_voltage_samples(i_c: PWL, capacitance, esr, v_mean,
     v(t) = V_mean + (1/C)·∫(i_c − 0) dt (mean removed) + ESR·i_c(t)   [V], (N, S, k).
     The current must have zero mean (charge balance in steady state).
     """
-    n = i_c.a.shape[0]
+    return per_corner(v_mean) + i_c.integral_samples(k) / per_corner(capacitance) \
+        + per_corner(esr) * i_c.samples(k)
 
-    def col(x):
-        return np.broadcast_to(np.asarray(x, dtype=float), (n,))[:, None, None]
 
-    return col(v_mean) + i_c.integral_samples(k) / col(capacitance) \
-        + col(esr) * i_c.samples(k)
+def per_corner(x, ndim: int = 3) -> np.ndarray:
+    """A per-corner value shaped to broadcast against an array of ``ndim`` axes whose
+    first axis is the corner: (N,) -> (N, 1, …, 1); a scalar stays a scalar.
+
+    Parameters
+    ----------
+    x : float or numpy.ndarray
+        Scalar or (N,) value [any unit].
+    ndim : int
+        Number of axes of the array it meets: 3 for samples (N, S, k), 2 for
+        per-segment values (N, S).
+
+    Returns
+    -------
+    numpy.ndarray
+        ``x`` as float, (N, 1, …) or 0-d [unit of ``x``].
+    """
+    x = np.asarray(x, dtype=float)
+    return x.reshape(x.shape + (1,) * (ndim - 1)) if x.ndim == 1 else x
 
 
 def max_over(values: np.ndarray, mask=None) -> np.ndarray:
-    """Maximum of sampled values (N, S, k) over the segments where ``mask`` (S,) is true."""
+    """Maximum of sampled values (N, S, k) over the segments where ``mask`` holds.
+
+    Parameters
+    ----------
+    values : numpy.ndarray
+        Sampled values (N, S, k) [any unit].
+    mask : numpy.ndarray, optional
+        Segments to search: (S,) shared by all corners, or (N, S) per corner. None: all.
+
+    Returns
+    -------
+    numpy.ndarray
+        Maximum per corner (N,) [unit of ``values``]; −inf at a corner where a per-corner
+        mask holds in no segment.
+    """
     if mask is not None:
         m = np.asarray(mask, dtype=bool)
+        if m.ndim == 2:
+            return np.where(m[:, :, None], values, -np.inf).max(axis=(1, 2))
         values = values[:, m, :]
     return values.max(axis=(1, 2))
 
 
-def mean_over_samples(values: np.ndarray, grid: Grid, mask) -> np.ndarray:
-    """Time average of sampled values (N, S, k) over the segments in ``mask`` (trapezoid)."""
+def mean_over_samples(values: np.ndarray, grid: Grid, mask, fallback=None) -> np.ndarray:
+    """Time average of sampled values (N, S, k) over the segments in ``mask`` (trapezoid).
+
+    Parameters
+    ----------
+    values : numpy.ndarray
+        Sampled values (N, S, k) [any unit].
+    grid : Grid
+        The segment durations [s].
+    mask : numpy.ndarray
+        Segments to average over: (S,) shared by all corners, or (N, S) per corner.
+    fallback : numpy.ndarray, optional
+        With a per-corner mask: the value (N,) where the masked segments have no
+        duration [unit of ``values``].
+
+    Returns
+    -------
+    numpy.ndarray
+        Time average per corner (N,) [unit of ``values``].
+    """
     m = np.asarray(mask, dtype=bool)
+    if m.ndim == 2:
+        seg_avg = (values[:, :, 1:] + values[:, :, :-1]).mean(axis=2) / 2
+        dt = np.where(m, grid.dt, 0.0)
+        total = dt.sum(axis=1)
+        mean = (seg_avg * dt).sum(axis=1) / np.where(total > 0, total, 1.0)
+        return np.where(total > 0, mean, fallback)
     v = values[:, m, :]
     dt = grid.dt[:, m]
     seg_avg = (v[:, :, 1:] + v[:, :, :-1]).mean(axis=2) / 2

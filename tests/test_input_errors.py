@@ -403,8 +403,8 @@ def test_implausible_input_is_reported(tmp_path, case):
     ("boost", (12, 24), (24, 30), False), ("boost", (12, 24), (20, 20), False),
     ("full-bridge", (36, 75), (48, 48), True),
 ])
-def test_check_plausibility_by_topology(topology, vin, vo, ok):
-    """check_plausibility passes a buck whose output stays below its lowest input and a
+def test_check_envelope_by_topology(topology, vin, vo, ok):
+    """check_envelope passes a buck whose output stays below its lowest input and a
     boost whose output stays above its highest input, and refuses the others naming
     operating.output_voltage; an isolated converter may step up or down.
 
@@ -412,18 +412,18 @@ def test_check_plausibility_by_topology(topology, vin, vo, ok):
     """
     from types import SimpleNamespace
 
-    from stresscheck.design import check_plausibility
     from stresscheck.errors import InputError
+    from stresscheck.topologies import check_envelope
     from stresscheck.units import Spread
 
     design = SimpleNamespace(path=Path("d.toml"), topology=topology, max_duty=None,
                              input_voltage=Spread(vin[0], sum(vin) / 2, vin[1]),
                              output_voltage=Spread(vo[0], sum(vo) / 2, vo[1]))
     if ok:
-        check_plausibility(design)
+        check_envelope(design)
     else:
         with pytest.raises(InputError) as info:
-            check_plausibility(design)
+            check_envelope(design)
         assert info.value.key == "operating.output_voltage"
         assert topology in str(info.value)
 

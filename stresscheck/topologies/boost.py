@@ -36,7 +36,7 @@ it is −i_L.
 from __future__ import annotations
 
 from ..errors import InputError
-from . import Layout, RoleSpec, Stage, StageResult
+from .base import Layout, RoleSpec, Stage, StageResult
 from . import switching_cell as cell
 from . import buck
 from .buck import check_options
@@ -45,10 +45,21 @@ from .buck import check_options
 # off-time), which also keeps it clear of the peak of its lossy conversion ratio.
 
 
+def check_envelope(design) -> None:
+    """Refuse an output that does not stay above the input: a boost only steps up, its
+    duty ratio D = 1 − V_in/V_o > 0 at every corner (Erickson & Maksimović, 2nd ed.,
+    §2.3 — from memory), so the lowest output must exceed the highest input [V]."""
+    vin, vo = design.input_voltage, design.output_voltage
+    if vo.min <= vin.max:
+        raise InputError(design.path, "operating.output_voltage", f"a boost converter only "
+                         f"steps up: the output ({vo.min:g} V at least) must stay above the "
+                         f"highest input voltage ({vin.max:g} V, operating.input_voltage)")
+
+
 def layout(design) -> Layout:
     """Roles of a boost design; refuses the options it does not take and a surge that
     reaches the output voltage."""
-    check_options(design, "boost")  # output above input: design.check_plausibility
+    check_options(design, "boost")  # output above input: check_envelope
     path = design.path
     if design.input_surge is not None and design.input_surge >= design.output_voltage.min:
         raise InputError(path, "operating.input_surge", f"a surge of "

@@ -2,96 +2,17 @@
 with center-tap, full-bridge or current-doubler rectifier, diode or synchronous (MOSFET)
 rectifiers, continuous conduction of the output inductor(s).
 
-This module holds the layouts, the duty limits and the PWM model; the phase-shifted
-full bridge is :mod:`.bridge_phase_shift`.
-
-PWM segment grid of one switching period Ts = 1/fs (each switch conducts once per period):
-  0 ON1   first half-cycle on, D·Ts          (FB: Q0+Q3; HB: Q0; PP: Q0)
-  1 F1a   freewheel, t_b                    (rectifier B's body diode, synchronous only)
-  2 F1b   freewheel, (1/2 − D)·Ts − 2·t_b   (all switches off)
-  3 F1c   freewheel, t_b                    (rectifier A's body diode)
-  4 ON2   second half-cycle on, D·Ts         (FB: Q2+Q1; HB: Q1; PP: Q1)
-  5 F2a   t_b, A's body diode;  6 F2b;  7 F2c  t_b, B's body diode
-Rectifier group A conducts with the first half-cycle (center-tap: rectifier 0; bridge
-rectifier: 0 and 3; current doubler: rectifier 0, on the winding end that the first
-half-cycle drives low), group B with the second (1; 1 and 2; 1). A synchronous rectifier
-is gated off during the other half-cycle's on-interval widened by the dead time t_d on
-both sides; for t_b = min(t_d, (1/2 − D)·Ts/2) after it turns on and before it turns off
-its body diode carries its current. Diodes: t_b = 0 (the segments have zero length).
-
-Relations (ideal forms in Erickson & Maksimović, Fundamentals of Power Electronics, 2nd
-ed., §6.3.1–6.3.3, and Mohan, Undeland & Robbins, Power Electronics, 3rd ed., §10.5;
-current doubler: Balogh, "The current-doubler rectifier: an alternative rectification
-technique for push-pull and bridge converters", Unitrode application note U-165 — all
-from memory), extended here with conduction drops, magnetizing current and bus ripple:
-
-* Output inductor volt-second balance, Σ_k u_k·dt_k = 0 over the period, with u_k the
-  inductor voltage in segment k taken at the segment's mean device currents [V]:
-      on-interval (center-tap, bridge):  u = v_on − V_o − DCR·I_o
-      v_on = n·(V_src − (R_sw + R_p)·n·I_s) − R_s·I_s − v_rect(I_o),   n = N_s/N_p
-  with V_src the mean source voltage of the primary during the on-interval (FB, PP: the
-  bus; HB: the split capacitor), R_sw the on-path switch resistance (FB: two switches),
-  I_s the mean secondary current of the on-interval (I_o; current doubler I_o/2) and
-  v_rect the drop of the conducting rectifier (center-tap: one device, bridge: two;
-  diode v_f0 + r_d·I, synchronous channel R_DS(on)·I, body diode v_f0 + r_d·I).
-  Freewheel (primary open): the rectifiers share I_L split by the magnetizing current,
-  I_L/2 ∓ I_m/(2n) (ampere-turn balance of the ideal transformer, i_p = 0); the
-  rectifier node sits at −(R_s·I_L + v_A + v_B)/2 (center-tap) or −(v_A + v_B) (bridge).
-  The duty follows in closed form (the balance is linear in D for a given t_b branch).
-* Current doubler (one secondary winding of N_s turns, no center tap; two inductors
-  L1, L2 from its ends to the output, two rectifiers from its ends to the output
-  return; meaningful for the push-pull too, whose secondary sees the same ±n·V_in):
-  L1 charges only in ON1 with
-  n·emf − R_s·I_1 − v_A(I_1 + I_2), and discharges through rectifier B for the rest of
-  the period, so V_o = n·D·V_src in the lossless limit (D per switch), each inductor
-  carries I_o/2 with a ripple at fs, the output capacitor their sum (ripple at 2·fs,
-  partly cancelled). The conducting rectifier carries I_1 + I_2, the winding one
-  inductor's current; the blocking rectifier sees the secondary voltage n·emf less the
-  drops.
-* Inductor current: piecewise linear with the segment slopes u_k/L, offset so that its
-  mean is the load share (I_o; current doubler I_o/2 each).
-* Magnetizing current: λ = (V_src − (R_sw + R_p)·n·I_s)·D·Ts per on-interval [V·s];
-  I_m = λ/(2·L_m) [A]; B_peak = λ/(2·N_p·A_e) [T] (Faraday's law, symmetric swing).
-* Synchronous rectifiers conduct in both directions: the inductor current may go
-  negative at light load (forced continuous conduction); only during the body-diode
-  intervals must the current flow forward.
-* The source supplies only DC: the input (or split) capacitors carry all the AC current
-  (the conservative convention for their ripple rating).
+This module holds the layouts and the duty limits, and hands a stage to its model:
+:mod:`.bridge_pwm` (PWM, all three topologies) or :mod:`.bridge_phase_shift` (the
+phase-shifted full bridge). Both share the rectifier groups of :mod:`.bridge_rectifier`.
 """
 
 from __future__ import annotations
 
-import numpy as np
-
-from .. import schema
 from ..errors import InputError
-from ..waveforms import (Grid, capacitor_voltage_samples, max_over, mean_over_samples)
-from . import Layout, RoleSpec, Stage, StageResult
-
-ON1, F1A, F1B, F1C, ON2, F2A, F2B, F2C = range(8)
-_SEGMENTS = 8
-
-
-def _mask(*segments):
-    m = np.zeros(_SEGMENTS, dtype=bool)
-    m[list(segments)] = True
-    return m
-
-
-MASK_ON1, MASK_ON2 = _mask(ON1), _mask(ON2)
-MASK_ON = _mask(ON1, ON2)
-MASK_FW1, MASK_FW2 = _mask(F1A, F1B, F1C), _mask(F2A, F2B, F2C)
-MASK_FW = MASK_FW1 | MASK_FW2
-BODY_A, BODY_B = _mask(F1C, F2A), _mask(F1A, F2C)  # synchronous-rectifier body diodes
-
-# Rectifier positions of group A (conducts with the first half-cycle) and group B.
-GROUPS = {"center-tap": ((0,), (1,)), "full-bridge": ((0, 3), (1, 2)),
-          "current-doubler": ((0,), (1,))}
-
-# Passes of the fixed point between duty, bus ripple (it lowers the mean primary voltage
-# during the on-interval by a fraction of a percent) and the magnetizing share of the
-# rectifier currents (it moves the synchronous rectifiers' body-diode drops).
-BUS_PASSES = 8
+from . import bridge_phase_shift, bridge_pwm
+from .base import Layout, RoleSpec, Stage, StageResult
+from .bridge_rectifier import GROUPS
 
 
 def layout(design) -> Layout:
@@ -99,7 +20,7 @@ def layout(design) -> Layout:
     path, top, rect = design.path, design.topology, design.rectifier
     if rect is None:
         raise InputError(path, "converter.rectifier", "a bridge-family converter needs a "
-                         "rectifier: " + ", ".join(schema.RECTIFIERS))
+                         "rectifier: " + ", ".join(GROUPS))
     rect_comps = design.by_role("rectifier")
     kinds = sorted({c.part.kind for c in rect_comps})
     if len(kinds) > 1:
@@ -147,6 +68,17 @@ def layout(design) -> Layout:
     return Layout(top, rect, roles)
 
 
+def check_envelope(design) -> None:
+    """Refuse a controller limit ``max_duty`` above 50 %: each switch of a bridge-family
+    converter conducts at most half a period, so such a limit cannot apply."""
+    if design.max_duty is not None and design.max_duty > 0.5:
+        top = design.topology
+        raise InputError(design.path, "converter.max_duty", f"each switch of a {top} "
+                         f"conducts at most 50 % of the period; a max_duty of "
+                         f"{100 * design.max_duty:g} % cannot apply (it is the limit per "
+                         "switch)")
+
+
 def duty_limit(design, fs):
     """Each switch conducts at most half a period less the dead time [1]; phase shift:
     the leading leg switches at least one dead time before the lagging leg."""
@@ -163,297 +95,7 @@ def duty_limit_reason(design) -> str:
 
 
 def evaluate(st: Stage) -> StageResult:
+    """Periodic steady state of every corner by the stage's modulation's model."""
     if st.modulation == "phase-shift":
-        from . import bridge_phase_shift
         return bridge_phase_shift.evaluate(st)
-    return _evaluate_pwm(st)
-
-
-class RectifierGroup:
-    """The rectifier positions that conduct with one half-cycle, averaged [SI].
-
-    ``drop(i, body)`` is the forward drop at forward current ``i`` [V]: a diode (or a
-    MOSFET's body diode, ``body=True``) v_f0 + r_d·i, a synchronous rectifier's channel
-    R_DS(on)·i (in either direction). ``i`` may be (N,), (N, S) or (N, S, k).
-    """
-
-    def __init__(self, devices):
-        self.sync = devices[0].kind == "mosfet"
-        self.v_f0 = np.mean([d.v_f0 for d in devices], axis=0)
-        self.r_d = np.mean([d.r_d for d in devices], axis=0)
-        self.r_on = np.mean([d.r_on for d in devices], axis=0) if self.sync else None
-
-    def drop(self, i, body=False):
-        i = np.asarray(i, dtype=float)
-
-        def col(x):
-            return x.reshape(x.shape + (1,) * (i.ndim - 1))
-
-        body = np.asarray(body, dtype=bool)
-        diode = col(self.v_f0) + col(self.r_d) * i
-        if not self.sync:
-            return diode
-        return np.where(body, diode, col(self.r_on) * i)
-
-
-def rectifier_groups(st: Stage) -> tuple[RectifierGroup, RectifierGroup]:
-    rects = st.group("rectifier")
-    a, b = GROUPS[st.rectifier]
-    return (RectifierGroup([rects[k] for k in a]), RectifierGroup([rects[k] for k in b]))
-
-
-def _segment_voltages(st, ga, gb, emf, m_share):
-    """Inductor voltages per segment [V], (N, 8) for each output inductor.
-
-    ``emf`` is the mean primary emf of an on-interval [V], ``m_share`` = I_m/n the
-    magnetizing current referred to the secondary [A] (it splits the freewheel current).
-    """
-    rect, xf, io, vo = st.rectifier, st.transformer, st.io, st.vo
-    n, r_s = xf.n_s / xf.n_p, xf.r_s
-    nseg = (io.size, _SEGMENTS)
-    share = np.where(MASK_FW1, 1.0, np.where(MASK_FW2, -1.0, 0.0))[None, :] * m_share[:, None]
-    body_a, body_b = BODY_A[None, :], BODY_B[None, :]
-    if rect == "current-doubler":
-        ih = io / 2
-        out = []
-        for k in (0, 1):
-            dcr = st.inductors[k].dcr
-            u = np.empty(nseg)
-            if k == 0:  # L1 on the winding end that ON1 drives high; rectifier B clamps it
-                fw = -gb.drop(ih[:, None] + share, body_b)
-                u[:, ON1] = n * emf - r_s * ih - ga.drop(io)
-                u[:, ON2] = -gb.drop(io)
-            else:
-                fw = -ga.drop(ih[:, None] - share, body_a)
-                u[:, ON1] = -ga.drop(io)
-                u[:, ON2] = n * emf - r_s * ih - gb.drop(io)
-            u[:, MASK_FW] = fw[:, MASK_FW]
-            out.append(u - (vo + dcr * ih)[:, None])
-        return out
-    i_a = (io[:, None] - share) / 2
-    i_b = (io[:, None] + share) / 2
-    u = np.empty(nseg)
-    if rect == "center-tap":
-        u[:, ON1] = n * emf - r_s * io - ga.drop(io)
-        u[:, ON2] = n * emf - r_s * io - gb.drop(io)
-        fw = -(r_s * io[:, None] + ga.drop(i_a, body_a) + gb.drop(i_b, body_b)) / 2
-    else:
-        u[:, ON1] = n * emf - r_s * io - 2 * ga.drop(io)
-        u[:, ON2] = n * emf - r_s * io - 2 * gb.drop(io)
-        fw = -(ga.drop(i_a, body_a) + gb.drop(i_b, body_b))
-    u[:, MASK_FW] = fw[:, MASK_FW]
-    return [u - (vo + st.inductors[0].dcr * io)[:, None]]
-
-
-def _balance_duty(u, ts, t_d):
-    """Duty ratio D at which Σ u_k·dt_k = 0 over the period [1].
-
-    Durations: D·Ts (on), t_b, (1/2 − D)·Ts − 2·t_b, t_b per half; t_b = t_d while the
-    freewheel lasts at least 2·t_d, else half the freewheel.
-    """
-    on = u[:, ON1] + u[:, ON2]
-    edge = u[:, F1A] + u[:, F1C] + u[:, F2A] + u[:, F2C]
-    mid = u[:, F1B] + u[:, F2B]
-    d_full = -(t_d * (edge - 2 * mid) + ts / 2 * mid) / (ts * (on - mid))
-    d_short = -edge / (4 * on - 2 * edge)
-    return np.where((0.5 - d_full) * ts >= 2 * t_d, d_full, d_short)
-
-
-def _durations(d, ts, t_d):
-    fw = (0.5 - d) * ts
-    t_b = np.minimum(t_d, fw / 2)
-    return np.stack([d * ts, t_b, fw - 2 * t_b, t_b] * 2, axis=1)
-
-
-def inductor_wave(grid: Grid, u, inductance, i_mean):
-    """Inductor current with segment voltages ``u`` (N, S) [V], mean ``i_mean`` [A]."""
-    inc = u * grid.dt / inductance[:, None]
-    start = np.concatenate([np.zeros((u.shape[0], 1)), np.cumsum(inc, axis=1)[:, :-1]], axis=1)
-    end = start + inc
-    mean = (grid.dt * (start + end) / 2).sum(axis=1) / grid.period
-    offset = (i_mean - mean)[:, None]
-    return grid.wave(start + offset, end + offset)
-
-
-def _evaluate_pwm(st: Stage) -> StageResult:
-    top, rect = st.topology, st.rectifier
-    doubler = rect == "current-doubler"
-    xf = st.transformer
-    n = xf.n_s / xf.n_p
-    ts = 1.0 / st.fs
-    io = st.io
-    switch_r = [d.r_on for d in st.group("switch")]
-    # on-path switch resistance, averaged over the two half-cycles
-    if top == "full-bridge":
-        r_sw = ((switch_r[0] + switch_r[3]) + (switch_r[2] + switch_r[1])) / 2
-    else:
-        r_sw = (switch_r[0] + switch_r[1]) / 2
-    r_prim = r_sw + xf.r_p
-    r_s = xf.r_s
-    ga, gb = rectifier_groups(st)
-    sync = ga.sync
-    t_d = st.dead_time if sync else 0.0
-    i_sec = io / 2 if doubler else io  # mean secondary current of an on-interval
-
-    v_src = st.vin / 2 if top == "half-bridge" else st.vin.copy()
-    gain = n if doubler else 2 * n  # V_o = gain·D·V_src, lossless
-    i_m = v_src * (st.vo / (gain * v_src)) * ts / (2 * xf.l_m)
-    for _ in range(BUS_PASSES):
-        emf_on = v_src - r_prim * n * i_sec  # mean primary emf during the on-interval
-        u = _segment_voltages(st, ga, gb, emf_on, i_m / n)
-        duty = _balance_duty(u[0], ts, t_d)
-        d = np.clip(duty, 1e-6, 0.5)
-        grid = Grid(_durations(d, ts, t_d))
-        lam = emf_on * d * ts
-        i_m_new = lam / (2 * xf.l_m)
-        i_l = [inductor_wave(grid, uk, ind.l, io / len(u))
-               for uk, ind in zip(u, st.inductors)]
-        im_a = np.where(MASK_ON1, -1.0, np.where(MASK_ON2 | MASK_FW1, 1.0, -1.0))
-        im_b = np.where(MASK_ON2 | MASK_FW2, -1.0, 1.0)
-        mag = grid.wave(im_a[None, :] * i_m_new[:, None], im_b[None, :] * i_m_new[:, None])
-        share = mag / n
-        if doubler:
-            l1, l2 = i_l
-            both = l1 + l2
-            cur_a = both.only(MASK_ON1) + (l2 - share).only(MASK_FW)
-            cur_b = both.only(MASK_ON2) + (l1 + share).only(MASK_FW)
-            i_s = l1.only(MASK_ON1) - l2.only(MASK_ON2) - share.only(MASK_FW)
-        else:
-            (l1,) = i_l
-            cur_a = l1.only(MASK_ON1) + ((l1 - share) / 2).only(MASK_FW)
-            cur_b = l1.only(MASK_ON2) + ((l1 + share) / 2).only(MASK_FW)
-            i_s = l1.only(MASK_ON1) - l1.only(MASK_ON2) - share.only(MASK_FW)
-        i_prim = (i_s * n + mag).only(MASK_ON)
-        i_a = i_prim.only(MASK_ON1)  # current of the first / second on-path
-        i_b = (-i_prim).only(MASK_ON2)
-
-        currents = {("inductor", k): w for k, w in enumerate(i_l)}
-        i_out_sum = i_l[0] if len(i_l) == 1 else i_l[0] + i_l[1]
-        currents[("output-capacitor", 0)] = i_out_sum - io
-        if top == "full-bridge":
-            currents.update({("switch", 0): i_a, ("switch", 3): i_a,
-                             ("switch", 2): i_b, ("switch", 1): i_b})
-        else:
-            currents.update({("switch", 0): i_a, ("switch", 1): i_b})
-
-        v_block: dict = {}
-        if top == "half-bridge":
-            i_dc = (i_a.mean() + i_b.mean()) / 2
-            i_c1 = i_a * -1 + i_dc
-            i_c2 = i_b * -1 + i_dc
-            c1, c2 = st.capacitors[("split-capacitor", 0)], st.capacitors[("split-capacitor", 1)]
-            v_c1 = capacitor_voltage_samples(i_c1, c1.c, c1.esr, st.vin / 2)
-            v_c2 = capacitor_voltage_samples(i_c2, c2.c, c2.esr, st.vin / 2)
-            bus = v_c1 + v_c2
-            src1, src2 = v_c1, v_c2
-            currents[("split-capacitor", 0)] = i_c1
-            currents[("split-capacitor", 1)] = i_c2
-            v_block[("split-capacitor", 0)] = max_over(v_c1)
-            v_block[("split-capacitor", 1)] = max_over(v_c2)
-        else:
-            i_bus = i_a + i_b
-            i_dc = i_bus.mean()
-            i_cin = i_dc - i_bus
-            cin = st.capacitors[("input-capacitor", 0)]
-            bus = capacitor_voltage_samples(i_cin, cin.c, cin.esr, st.vin)
-            src1 = src2 = bus
-            currents[("input-capacitor", 0)] = i_cin
-            v_block[("input-capacitor", 0)] = max_over(bus)
-        v_src_new = (mean_over_samples(src1, grid, MASK_ON1)
-                     + mean_over_samples(src2, grid, MASK_ON2)) / 2
-        settled = (np.allclose(v_src_new, v_src, rtol=1e-9, atol=0)
-                   and np.allclose(i_m_new, i_m, rtol=1e-9, atol=1e-12))
-        v_src, i_m = v_src_new, i_m_new
-        if settled:
-            break
-
-    # rectifier positions ----------------------------------------------------------------
-    a_pos, b_pos = GROUPS[rect]
-    body_result: dict = {}
-    for positions, cur, body_mask in ((a_pos, cur_a, BODY_A), (b_pos, cur_b, BODY_B)):
-        for k in positions:
-            if sync:  # channel current drain -> source: the forward current reversed
-                currents[("rectifier", k)] = (-cur).only(~body_mask)
-                body_result[("rectifier", k)] = cur.only(body_mask)
-            else:
-                currents[("rectifier", k)] = cur
-
-    # blocking voltages ---------------------------------------------------------------
-    ia_s, ib_s = i_a.samples(), i_b.samples()
-    l1_s = i_l[0].samples()
-    if top == "push-pull":
-        # off switch: bus + emf of the conducting half (coupled winding of equal turns)
-        v_q0 = max_over(2 * src2 - (switch_r[1][:, None, None] + xf.r_p) * ib_s, MASK_ON2)
-        v_q1 = max_over(2 * src1 - (switch_r[0][:, None, None] + xf.r_p) * ia_s, MASK_ON1)
-        bus_max = max_over(bus)
-        v_block[("switch", 0)] = np.maximum(v_q0, bus_max)
-        v_block[("switch", 1)] = np.maximum(v_q1, bus_max)
-    else:
-        bus_max = max_over(bus)
-        for k in range(len(switch_r)):
-            v_block[("switch", k)] = bus_max
-    # primary emf during each on-interval, sampled
-    emf1 = src1 - r_prim[:, None, None] * ia_s
-    emf2 = src2 - r_prim[:, None, None] * ib_s
-    if doubler:
-        l2_s = i_l[1].samples()
-        both_s = l1_s + l2_s
-        v_a = max_over(n * emf2 - r_s * l2_s - gb.drop(both_s), MASK_ON2)
-        v_b = max_over(n * emf1 - r_s * l1_s - ga.drop(both_s), MASK_ON1)
-    elif rect == "center-tap":
-        # blocking rectifier sees both secondary halves less the conducting one's drop
-        v_a = max_over(2 * n * emf2 - r_s * l1_s - gb.drop(l1_s), MASK_ON2)
-        v_b = max_over(2 * n * emf1 - r_s * l1_s - ga.drop(l1_s), MASK_ON1)
-    else:
-        v_a = max_over(n * emf2 - r_s * l1_s - gb.drop(l1_s), MASK_ON2)
-        v_b = max_over(n * emf1 - r_s * l1_s - ga.drop(l1_s), MASK_ON1)
-    for k in a_pos:
-        v_block[("rectifier", k)] = v_a
-    for k in b_pos:
-        v_block[("rectifier", k)] = v_b
-    cout = st.capacitors[("output-capacitor", 0)]
-    v_out = capacitor_voltage_samples(currents[("output-capacitor", 0)], cout.c, cout.esr,
-                                      st.vo)
-    v_block[("output-capacitor", 0)] = max_over(v_out)
-
-    # transformer ------------------------------------------------------------------------
-    if top == "push-pull":
-        p_wind = xf.r_p * (i_a.rms() ** 2 + i_b.rms() ** 2)
-    else:
-        p_wind = xf.r_p * (i_a - i_b).rms() ** 2
-    if rect == "center-tap":
-        p_wind = p_wind + r_s * (cur_a.rms() ** 2 + cur_b.rms() ** 2)
-    else:
-        p_wind = p_wind + r_s * i_s.rms() ** 2
-    b_peak = lam / (2 * xf.n_p * xf.core_area) if xf.core_area else None
-
-    i_min = np.min([w.min() for w in i_l], axis=0)
-    if sync:
-        # forward current during the body-diode intervals (zero-length ones included)
-        body_min = np.minimum(*[np.where(mask, np.minimum(w.a, w.b), np.inf).min(axis=1)
-                                for w, mask in ((cur_a, BODY_A), (cur_b, BODY_B))])
-        invalid = [
-            ((t_d > 0) & (body_min < 0), "a synchronous rectifier carries reverse current "
-             "when its channel turns off (light load, forced continuous conduction): its "
-             "body diode cannot take that current during the dead time, which then flows "
-             "back through the primary switches' body diodes (not modelled); raise the "
-             "minimum load or the output inductance, or shorten the dead time"),
-        ]
-    else:
-        what = "an output inductor current" if doubler else "the output inductor current"
-        invalid = [
-            (i_min <= 0, f"{what} falls to zero (discontinuous conduction), which this "
-                         "bridge model does not cover yet; raise the minimum load or the "
-                         "output inductance, or use synchronous rectifiers"),
-            (np.minimum(cur_a.min(), cur_b.min()) < 0,
-             "the magnetizing current exceeds the inductor current in freewheel, so one "
-             "rectifier would stop conducting (not modelled); raise the magnetizing "
-             "inductance or the minimum load"),
-        ]
-    return StageResult(duty=duty, grid=grid, currents=currents, v_block=v_block,
-                       input_current=i_dc, winding_loss=p_wind, b_peak=b_peak,
-                       i_m_peak=i_m, i_l_start=i_l[0].a[:, 0], i_m_start=-i_m,
-                       body=body_result, invalid=invalid,
-                       regime=np.full(io.shape, "CCM", dtype=object),
-                       notes=["switch and rectifier voltages are before any leakage spike or ringing; "
-                              "leakage inductance is not modelled with PWM modulation"])
+    return bridge_pwm.evaluate(st)

@@ -41,17 +41,8 @@ negligible ripple), so the effective duty is D_eff = D − Δt·fs and, lossless
 V_o = 2·n·D_eff·V_in [V] (our D per switch period; their D per half period = 2·D).
 This module solves the same intervals with the conduction drops:
 
-* Both rectifiers conducting (commutation, open primary, and freewheel where the drops
-  win): the rectifier node sits at −v_2(i_L) (center-tap v_f0 + (r_d + R_s)·i_L/2,
-  bridge 2·v_f0 + r_d·i_L) and the transformer at v_tx = ρ·(i_p − i_m)/n² (ρ = (R_s +
-  r_d)/2 center-tap, R_s + r_d bridge): the primary loop L_lk·di_p/dt = E − R·i_p − v_tx
-  is first order with time constant L_lk/(R + ρ/n²), solved exactly (exponential); E is
-  the source of the loop (V_in, 0, ± the body-diode drop v_f0,b), R its resistance.
-* One rectifier conducting (power interval; freewheel where L_lk sustains the current):
-  i_p = n·i_L + i_m, L_lk and the output inductor in series through the ideal
-  transformer: v_tx·(1 + n²·L_lk/L + L_lk/L_m) = E − R·i_p + n·L_lk·W/L, with W = V_o +
-  DCR·i_L + v_1(i_L) (v_1: drop of the single conducting path); di_L/dt = (n·v_tx −
-  W)/L, di_m/dt = v_tx/L_m; solved by the trapezoidal rule (exact for linear currents).
+* Within an interval (one or both rectifiers conducting, synchronous drops per state):
+  :mod:`.bridge_phase_shift_intervals`.
 * The freewheel leaves the one-rectifier state when the outgoing rectifier would be
   forward biased, i.e. when the primary loop's drops make i_p fall faster than n·i_L
   (in the dead time the body diode's v_f0,b adds to them), and returns when that
@@ -73,18 +64,7 @@ body diode (v_f0 + r_d·i, forward only) conducts wherever else the diode would:
 lagging leg's dead time (S0, OPEN: both body diodes), the rest of the commutation as
 the outgoing rectifier (S1/S3), and a freewheel where both rectifiers conduct. The
 intervals are the diode model's, with per state drops:
-* one rectifier on: the channel, v_1 = R_DS(on)·i_L (bridge: two channels);
-* both on, both body diodes (the dead time S0, OPEN): the diode relations above;
-* both on, incoming channel (c_A = 0, r_A = R_DS(on)) and outgoing body diode (c_B =
-  v_f0, r_B = r_d), from the two secondary loops and i_A − i_B = (i_p − i_m)/n, i_A +
-  i_B = i_L (Kirchhoff's laws and the ideal transformer's ampere-turn balance):
-  center-tap 2·n·v_tx = (R_s + r̄)·(i_p − i_m)/n + (c_A − c_B) + Δr·i_L/2, rectifier
-  node −[(c_A + c_B) + (R_s + r̄)·i_L + Δr·(i_A − i_B)/2]/2; bridge n·v_tx = (R_s +
-  r̄)·(i_p − i_m)/n + (c_A − c_B) + Δr·i_L/2, node −[(c_A + c_B) + r̄·i_L + Δr·(i_A −
-  i_B)/2], with r̄ = (r_A + r_B)/2, Δr = r_A − r_B [V]. The loop keeps its first-order
-  form with v_tx = ρ·(i_p − i_m)/n² + k; the Δr cross terms (tens of millivolts at
-  most, over segments of a few hundred nanoseconds) are taken at the state at the start
-  of the segment.
+(module :mod:`.bridge_phase_shift_intervals` gives the drops per state).
 Forced continuous conduction: a channel would carry the inductor current backwards
 at light load, but the current is lowest at the lagging transition, where the
 outgoing channel turns off and its body diode would have to take it; such corners
@@ -94,13 +74,12 @@ the transition below zero, also with no dead time) are refused via ``invalid``.
 
 from __future__ import annotations
 
-import copy
-
 import numpy as np
 
-from ..waveforms import Grid, capacitor_voltage_samples, max_over, mean_over_samples
-from . import Stage, StageResult
-from .bridge import RectifierGroup
+from ..waveforms import (Grid, capacitor_voltage_samples, max_over, mean_over_samples,
+                         per_corner)
+from .base import Stage, StageResult
+from . import bridge_phase_shift_intervals as iv
 
 SUB = 4  # sub-segments of a freewheel with both rectifiers on (exponential i_p)
 S0, S1, OPEN, S3, P, FA_SH, FA_SI = range(7)
@@ -115,163 +94,9 @@ BUS_PASSES = 6
 MAX_ITER = 80
 PATIENCE = 15  # iterations after which the noise floor (ACCEPT_TOL) is good enough
 SLOPE_UPDATES = 4  # Newton iterations on D that refresh the slope
-ROOT_ITER = 60  # Newton steps (with bisection fallback) of an interval end, at most
-ROOT_TOL = 1e-13  # of the bracket: stop when every corner's step is below it
 REL_TOL = 1e-9  # relative step of the steady-state iteration at which it stops
 ACCEPT_TOL = 1e-6  # ... and below which its result counts as converged (noise floor
 # ~1e-10 where a freewheel sits at the edge of turning both rectifiers on)
-
-
-class _Params:
-    """Per-corner circuit values of the model [SI], (N,) arrays or scalars."""
-
-    def __init__(self, st: Stage):
-        xf, ind = st.transformer, st.inductors[0]
-        self.n = xf.n_s / xf.n_p
-        self.l_lk, self.l_m, self.l = xf.l_leak, xf.l_m, ind.l
-        self.dcr, self.r_s, self.r_p = ind.dcr, xf.r_s, xf.r_p
-        self.ts = 1.0 / st.fs
-        self.t_d = st.dead_time
-        self.vo, self.io = st.vo, st.io
-        sw = st.group("switch")
-        self.r_lead = (sw[0].r_on + sw[1].r_on) / 2
-        self.r_lag = (sw[2].r_on + sw[3].r_on) / 2
-        self.vb = np.mean([d.v_f0 for d in sw], axis=0)
-        self.rb = np.mean([d.r_d for d in sw], axis=0)
-        rect = RectifierGroup(st.group("rectifier"))
-        self.vf, self.rd = rect.v_f0, rect.r_d  # diode, or the MOSFET's body diode
-        self.sync = rect.sync
-        # the conducting device of a one-rectifier state: the diode, or the channel
-        self.vf1 = np.zeros_like(self.vf) if self.sync else self.vf
-        self.rd1 = rect.r_on if self.sync else self.rd
-        self.bridge = st.rectifier == "full-bridge"
-        if self.bridge:
-            self.c1, self.r1 = 2 * self.vf1, 2 * self.rd1 + self.r_s  # one path conducts
-            self.c2, self.r2 = 2 * self.vf, self.rd  # rectifier node, all four conduct
-            self.rho = self.r_s + self.rd
-        else:
-            self.c1, self.r1 = self.vf1, self.rd1 + self.r_s
-            self.c2, self.r2 = self.vf, (self.rd + self.r_s) / 2
-            self.rho = (self.r_s + self.rd) / 2
-        self.k = 0.0  # constant part of v_tx with both on (unequal drops), [V]
-        self.r_diag = self.r_lead + self.r_lag + self.r_p  # two channels + winding
-
-    def mixed(self, state):
-        """Both rectifiers on, the incoming one through its channel (R_DS(on)·i) and the
-        outgoing one through its body diode (v_f0 + r_d·i): a copy with the shared
-        state's drops; the cross terms of the unequal slopes taken at ``state``'s
-        (i_p, i_L, i_m) (module docstring). Diode rectifiers: ``self``."""
-        if not self.sync:
-            return self
-        q = copy.copy(self)
-        ip, il, m = state
-        i_s = (ip - m) / self.n  # i_A − i_B (ampere-turn balance)
-        dr, c_b = self.rd1 - self.rd, self.vf  # channel − body slope; body threshold
-        r_bar = (self.rd1 + self.rd) / 2
-        if self.bridge:
-            q.rho, q.r2 = self.r_s + r_bar, r_bar
-            q.k = (-c_b + dr * il / 2) / self.n
-            q.c2 = c_b + dr * i_s / 2
-        else:
-            q.rho = q.r2 = (self.r_s + r_bar) / 2
-            q.k = (-c_b + dr * il / 2) / (2 * self.n)
-            q.c2 = c_b / 2 + dr * i_s / 4
-        return q
-
-
-def _ratio(x, small, exact, series):
-    """exact(x), or its series where |x| <= small (removable singularity at 0)."""
-    return np.where(np.abs(x) > small, exact(np.where(np.abs(x) > small, x, 1.0)), series(x))
-
-
-def _shared(p, e, r, ip0, il0, m0, t, slope=False):
-    """Both rectifiers on: (i_p, i_L, i_m) after time t [A]; with ``slope``, also
-    d/dt of n·i_L + i_m − i_p there [A/s]."""
-    r_eff = r + p.rho / p.n ** 2
-    drive = e - p.k + p.rho * m0 / p.n ** 2 - r_eff * ip0  # L_lk·di_p/dt at the start
-    x = t * r_eff / p.l_lk
-    g = _ratio(x, 1e-6, lambda y: -np.expm1(-y) / y, lambda y: 1 - y / 2)
-    h = _ratio(x, 1e-4, lambda y: (y + np.expm1(-y)) / y ** 2, lambda y: 0.5 - y / 6)
-    ip = ip0 + drive * t / p.l_lk * g
-    ip_mean = ip0 + drive * t / p.l_lk * h
-    rw = p.dcr + p.r2
-    k_l = p.vo + p.c2 + rw * il0
-    il = il0 - k_l * t / (p.l + rw * t / 2)
-    m = m0 + (p.rho * (ip_mean - m0) / p.n ** 2 + p.k) * t / p.l_m
-    if not slope:
-        return ip, il, m
-    d_ip = drive / p.l_lk * np.exp(-x)
-    d_il = -k_l * p.l / (p.l + rw * t / 2) ** 2
-    d_m = (p.rho * (ip - m0) / p.n ** 2 + p.k) / p.l_m
-    return (ip, il, m), p.n * d_il + d_m - d_ip
-
-
-def _shared_f(p, e, r, ip0, il0, m0, t):
-    """n·i_L + i_m − i_p (2n times the outgoing rectifier's current, both on) and its
-    time derivative."""
-    (ip, il, m), slope = _shared(p, e, r, ip0, il0, m0, t, slope=True)
-    return p.n * il + m - ip, slope
-
-
-def _single(p, e, r, ip0, il0, m0, dt):
-    """One rectifier on, trapezoidal step of length dt: (i_p, i_L, i_m, v_tx)."""
-    eps = 1e-12 * p.ts
-    dt = np.where(np.abs(dt) < eps, eps, dt)
-    rw = p.dcr + p.r1
-    w0 = p.vo + p.c1 + rw * il0
-    g = p.l_lk / dt + r / 2
-    h = 1.0 / (p.l / dt + rw / 2)
-    v_tx = (e - r * ip0 + g * p.n * h * w0) / (1 + g * p.n ** 2 * h + g * dt / p.l_m)
-    d_il = h * (p.n * v_tx - w0)
-    d_m = v_tx * dt / p.l_m
-    return ip0 + p.n * d_il + d_m, il0 + d_il, m0 + d_m, v_tx
-
-
-def _shared_rises(p, e, r, ip, il, m):
-    """Whether the outgoing rectifier turns on at once (d/dt of n·i_L + i_m − i_p > 0
-    in the both-on state, from a start where it carries nothing)."""
-    r_eff = r + p.rho / p.n ** 2
-    dip = (e - p.k + p.rho * m / p.n ** 2 - r_eff * ip) / p.l_lk
-    dil = -(p.vo + p.c2 + (p.dcr + p.r2) * il) / p.l
-    dm = (p.rho * (ip - m) / p.n ** 2 + p.k) / p.l_m
-    return p.n * dil + dm - dip > 0
-
-
-def _zero_crossing(p, e, r, ip0, il0, m0):
-    """Time for i_p, negative at the start, to reach zero with both rectifiers on [s]:
-    the exponential i_∞ + (i_p0 − i_∞)·exp(−t/τ) in closed form, τ = L_lk/(R + ρ/n²)."""
-    r_eff = r + p.rho / p.n ** 2
-    a = np.maximum(e - p.k + p.rho * m0 / p.n ** 2, 1e-30)  # L_lk·di_p/dt at i_p = 0
-    y = -ip0 * r_eff / a
-    t = p.l_lk * (-ip0) / a * _ratio(y, 1e-8, lambda z: np.log1p(z) / z, lambda z: 1 - z / 2)
-    return np.where(ip0 < 0, t, 0.0)
-
-
-def _last_nonnegative(f, hi, guess=None):
-    """Root t in (0, hi] of f, where f >= 0 from 0 up to the root and < 0 after it;
-    hi where f(hi) >= 0. ``f(t) -> (value, slope)``. Newton steps inside a shrinking
-    bracket, bisection where a step would leave it."""
-    lo = np.zeros_like(hi)
-    f_hi, _ = f(hi)
-    keep = f_hi >= 0
-    top = hi.copy()
-    t = hi.copy() if guess is None else np.clip(guess, 0.0, hi)
-    tol = ROOT_TOL * np.max(np.abs(hi))
-    for _ in range(ROOT_ITER):
-        val, slope = f(t)
-        up = val >= 0
-        lo = np.where(up, t, lo)
-        top = np.where(up, top, t)
-        step = np.where(slope < 0, t - val / np.where(slope < 0, slope, -1.0), np.nan)
-        inside = (step >= lo) & (step <= top)
-        t_new = np.where(inside, step, (lo + top) / 2)
-        done = np.all((np.abs(t_new - t) <= tol) | keep)
-        t = t_new
-        if done:
-            break
-    val, _ = f(t)
-    t = np.where(val >= 0, t, lo)  # stay on the side where the rectifier still conducts
-    return np.where(keep, hi, t)
 
 
 def _half(p, v, d, i_a, i_m, p_a):
@@ -294,9 +119,9 @@ def _half(p, v, d, i_a, i_m, p_a):
     # S0: the lagging leg's body diode; the reversing current flows against its drop,
     # which adds to the source.
     e0, r0 = v + p.vb, p.r_lead + p.rb + p.r_p
-    t_z = _zero_crossing(p, e0, r0, *state)
+    t_z = iv.zero_crossing(p, e0, r0, *state)
     dur = np.minimum(t_d, t_z)
-    end = _shared(p, e0, r0, *state, dur)
+    end = iv.shared(p, e0, r0, *state, dur)
     put(S0, dur, state, end)
     state = end
     case_a = t_z > t_d
@@ -307,10 +132,10 @@ def _half(p, v, d, i_a, i_m, p_a):
 
     def commutate(start):
         pm = p.mixed(start)  # synchronous: the incoming channel is on after t_d
-        f0, slope0 = _shared_f(pm, e1, r1, *start, np.zeros(n_c))
+        f0, slope0 = iv.shared_f(pm, e1, r1, *start, np.zeros(n_c))
         guess = np.where(slope0 < 0, -f0 / np.where(slope0 < 0, slope0, -1.0), 0.0)
-        root = _last_nonnegative(lambda t: _shared_f(pm, e1, r1, *start, t), half_t, guess)
-        return root, _shared(pm, e1, r1, *start, root)
+        root = iv.last_nonnegative(lambda t: iv.shared_f(pm, e1, r1, *start, t), half_t, guess)
+        return root, iv.shared(pm, e1, r1, *start, root)
 
     t1, end1 = commutate(state)
     dur = np.where(case_a, t1, 0.0)
@@ -336,7 +161,7 @@ def _half(p, v, d, i_a, i_m, p_a):
     # P: effective power interval, one rectifier.
     t_pre = dt[:, :P].sum(axis=1)
     dur = d * p.ts - t_pre
-    ip, il, m, _ = _single(p, e1, r1, p.n * state[1] + state[2], state[1], state[2], dur)
+    ip, il, m, _ = iv.single(p, e1, r1, p.n * state[1] + state[2], state[1], state[2], dur)
     start = (p.n * state[1] + state[2], state[1], state[2])
     end = (ip, il, m)
     put(P, dur, start, end, both=False)
@@ -346,16 +171,16 @@ def _half(p, v, d, i_a, i_m, p_a):
         """A freewheel interval: both rectifiers on until the outgoing one's current is
         back at zero (if it starts on), then one rectifier."""
         pm = p.mixed(start)  # synchronous: outgoing body diode, incoming channel
-        begins = was_shared | _shared_rises(pm, e, r, *start)
-        root = _last_nonnegative(lambda t: _shared_f(pm, e, r, *start, t), length)
+        begins = was_shared | iv.shared_rises(pm, e, r, *start)
+        root = iv.last_nonnegative(lambda t: iv.shared_f(pm, e, r, *start, t), length)
         t_sh = np.where(begins, root, 0.0)
-        mid = _shared(pm, e, r, *start, t_sh)
+        mid = iv.shared(pm, e, r, *start, t_sh)
         mid = tuple(np.where(begins, x, s) for x, s in zip(mid, start))
         if isinstance(k_shared, tuple):
             sub = t_sh / len(k_shared)
             s = start
             for j, k in enumerate(k_shared):
-                e_j = _shared(pm, e, r, *start, sub * (j + 1))
+                e_j = iv.shared(pm, e, r, *start, sub * (j + 1))
                 e_j = tuple(np.where(begins, x, s0) for x, s0 in zip(e_j, start))
                 put(k, sub, s, e_j)
                 s = e_j
@@ -365,7 +190,7 @@ def _half(p, v, d, i_a, i_m, p_a):
         end_shared = begins & (rest <= 0)  # both on to the end: no one-rectifier part
         s_start = tuple(np.where(end_shared, x, y)
                         for x, y in zip(mid, (p.n * mid[1] + mid[2], mid[1], mid[2])))
-        ip, il, m, _ = _single(p, e, r, *s_start, rest)
+        ip, il, m, _ = iv.single(p, e, r, *s_start, rest)
         s_end = tuple(np.where(end_shared, x, y) for x, y in zip(mid, (ip, il, m)))
         put(k_single, rest, s_start, s_end, both=False)
         return s_end, end_shared
@@ -437,13 +262,8 @@ def _only(mask, values):
     return [np.where(mask[None, :], x, 0.0) for x in values]
 
 
-def _masked_max(samples, mask):
-    """Max of (N, S, k) samples over segments where ``mask`` (N, S) holds; -inf if none."""
-    return np.where(mask[:, :, None], samples, -np.inf).max(axis=(1, 2))
-
-
 def evaluate(st: Stage) -> StageResult:
-    p = _Params(st)
+    p = iv.Params(st)
     n, io = p.n, st.io
     cin = st.capacitors[("input-capacitor", 0)]
     applied = np.concatenate([APPLIED, APPLIED])
@@ -518,35 +338,32 @@ def evaluate(st: Stage) -> StageResult:
     bus_max = max_over(bus)
     ip_s, il_s = ip_w.samples(), il_w.samples()
 
-    def col(x):  # (N,) or scalar -> broadcast against (N, S, k) samples
-        return np.reshape(x, (-1, 1, 1)) if np.ndim(x) else x
-
     def per_segment(half_values):  # (HALF,) values, both halves -> (1, S, 1)
         return np.concatenate([half_values, half_values])[None, :, None]
 
     # an off switch sees the bus plus the drop of its complement's body diode
-    v_body = col(p.vb) + col(p.rb) * np.abs(ip_s)
+    v_body = per_corner(p.vb) + per_corner(p.rb) * np.abs(ip_s)
     lead = np.concatenate([LEAD_BODY, LEAD_BODY])[None, :] & lasting
     lag = np.concatenate([LAG_BODY, LAG_BODY])[None, :] & lasting
-    v_lead = np.maximum(bus_max, _masked_max(bus + v_body, lead))
-    v_lag = np.maximum(bus_max, _masked_max(bus + v_body, lag))
+    v_lead = np.maximum(bus_max, max_over(bus + v_body, lead))
+    v_lag = np.maximum(bus_max, max_over(bus + v_body, lag))
     v_block = {("switch", 0): v_lead, ("switch", 1): v_lead, ("switch", 2): v_lag,
                ("switch", 3): v_lag, ("input-capacitor", 0): bus_max}
     # transformer voltage where one rectifier conducts, from the instantaneous loop
     # relation (module docstring), with the first half's sign of i_p
     e_loop = np.where(per_segment(APPLIED), bus, 0.0)
-    e_loop = np.where(per_segment(LEAD_BODY), -col(p.vb), e_loop)
-    r_loop = np.where(per_segment(LEAD_BODY), col(p.rb + p.r_lag + p.r_p), col(p.r_diag))
+    e_loop = np.where(per_segment(LEAD_BODY), -per_corner(p.vb), e_loop)
+    r_loop = np.where(per_segment(LEAD_BODY), per_corner(p.rb + p.r_lag + p.r_p), per_corner(p.r_diag))
     ip_first = ip_s * np.where(np.arange(2 * HALF) < HALF, 1.0, -1.0)[None, :, None]
-    w_s = col(p.vo + p.c1) + col(p.dcr + p.r1) * il_s
-    v_tx = (e_loop - r_loop * ip_first + p.l_lk * n * w_s / col(p.l)) / \
-        col(1 + n ** 2 * p.l_lk / p.l + p.l_lk / p.l_m)
+    w_s = per_corner(p.vo + p.c1) + per_corner(p.dcr + p.r1) * il_s
+    v_tx = (e_loop - r_loop * ip_first + p.l_lk * n * w_s / per_corner(p.l)) / \
+        per_corner(1 + n ** 2 * p.l_lk / p.l + p.l_lk / p.l_m)
     # the blocking rectifier: the whole (bridge: one) secondary less the conducting
     # path's diode and winding drops
-    drop = col(p.vf1) + col(p.rd1 + p.r_s) * il_s
+    drop = per_corner(p.vf1) + per_corner(p.rd1 + p.r_s) * il_s
     v_rev = (n if p.bridge else 2 * n) * v_tx - drop
     single = np.concatenate([SINGLE, SINGLE])[None, :] & lasting
-    v_rect = np.maximum(_masked_max(v_rev, single), 0.0)
+    v_rect = np.maximum(max_over(v_rev, single), 0.0)
     for k in currents:
         if k[0] == "rectifier":
             v_block[k] = v_rect

@@ -38,7 +38,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from . import Layout, RoleSpec, Stage, StageResult
+from .base import Layout, RoleSpec, Stage, StageResult
 from . import switching_cell as cell
 
 # Largest duty ratio of a diode buck when the design gives no max_duty [1]: the
@@ -50,7 +50,7 @@ DIODE_MAX_DUTY = 0.95
 
 def layout(design) -> Layout:
     """Roles of a buck design; refuses the options it does not take."""
-    check_options(design, "buck")  # output below input: design.check_plausibility
+    check_options(design, "buck")  # output below input: check_envelope
     return Layout("buck", None, {
         "switch": RoleSpec(1, kinds=("mosfet",)),
         "freewheel": RoleSpec(1, kinds=("diode", "mosfet")),
@@ -58,6 +58,17 @@ def layout(design) -> Layout:
         "input-capacitor": RoleSpec(None),
         "output-capacitor": RoleSpec(None),
     })
+
+
+def check_envelope(design) -> None:
+    """Refuse an output that reaches the input: a buck only steps down, its duty ratio
+    D = V_o/V_in < 1 at every corner (Erickson & Maksimović, 2nd ed., §2.2 —
+    from memory), so the highest output must stay below the lowest input [V]."""
+    vin, vo = design.input_voltage, design.output_voltage
+    if vo.max >= vin.min:
+        raise InputError(design.path, "operating.output_voltage", f"a buck converter only "
+                         f"steps down: the output ({vo.max:g} V at most) must stay below the "
+                         f"lowest input voltage ({vin.min:g} V, operating.input_voltage)")
 
 
 def check_options(design, name: str) -> None:

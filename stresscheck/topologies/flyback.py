@@ -142,7 +142,7 @@ import numpy as np
 from ..errors import InputError
 from ..regulation import solve_duty
 from ..waveforms import Grid, capacitor_voltage_samples, max_over, mean_over_samples
-from . import Layout, RoleSpec, Stage, StageResult
+from .base import Layout, RoleSpec, Stage, StageResult
 
 K_SUB = 6  # trapezoidal steps per conduction interval
 S = 4 * K_SUB + 1  # segments per period
@@ -166,6 +166,12 @@ def synchronous(design) -> bool:
     """True where the rectifier is a MOSFET (synchronous rectifier)."""
     comps = design.by_role("rectifier")
     return bool(comps) and comps[0].part.kind == "mosfet"
+
+
+def check_envelope(design) -> None:
+    """Nothing to refuse up front: the turns ratio lets a flyback step up or down; a
+    ratio that cannot reach the output at some corner is refused by the engine with
+    that corner named (``RegulationError``)."""
 
 
 def layout(design) -> Layout:

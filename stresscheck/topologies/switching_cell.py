@@ -70,7 +70,7 @@ import numpy as np
 
 from ..regulation import solve_duty
 from ..waveforms import PWL, Grid, capacitor_voltage_samples, max_over
-from . import CapacitorBank, Device, StageResult
+from .base import CapacitorBank, Device, StageResult
 
 ON, DEAD_A, OFF, DEAD_B, IDLE = range(5)  # intervals of the period
 N_PHASES = 5
