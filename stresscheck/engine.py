@@ -92,7 +92,7 @@ def build_stage(design, corners: CornerSet, devices: list[DeviceModel],
     for device in devices:
         device.add_to(parts, t[device.key])
     return Stage(topology=design.topology, rectifier=design.rectifier,
-                 modulation=design.modulation, vin=corners["input_voltage"],
+                 modulation=design.modulation, v_in=corners["input_voltage"],
                  vo=corners["output_voltage"], io=corners["output_current"],
                  fs=corners["switching_frequency"],
                  duty_limit=topology_duty_limit(design, corners["switching_frequency"]),
@@ -263,7 +263,7 @@ def circuit_at(ev: Evaluation, i: int) -> Circuit:
 
     xf = st.transformer
     out = st.capacitors[("output-capacitor", 0)]
-    c = Circuit(topology=st.topology, rectifier=st.rectifier, v_in=float(st.vin[i]),
+    c = Circuit(topology=st.topology, rectifier=st.rectifier, v_in=float(st.v_in[i]),
                 v_out=float(st.vo[i]), i_out=float(st.io[i]), f_sw=float(st.fs[i]),
                 duty=float(res.duty[i]), dead_time=st.dead_time,
                 switches=[semi(d) for d in st.group("switch")],

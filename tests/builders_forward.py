@@ -5,7 +5,9 @@ Test fixtures, not a parts library: values chosen to make a relation easy to che
 
 from __future__ import annotations
 
-from builders import LOSSLESS, part
+from builders import LOSSLESS, part, write_case
+from stresscheck.design import load_design
+from stresscheck.engine import run
 
 FORWARD_TOPOLOGIES = ("forward", "two-switch-forward")
 
@@ -104,3 +106,58 @@ def forward_design(topology="forward", *, vin=None, vo="5 V", io=None, fs="250 k
     for section, values in (extra or {}).items():
         doc[section].update(values)
     return doc
+
+
+# --- shared cases of the forward test modules ---------------------------------------------
+
+REL = 1e-4  # lossless limit: the relations are exact; the margin covers the bus ripple
+N_P, N_S, N_R = 8, 3, 6  # single switch: D_max = 8/14 = 0.571, switch 2.33·V_in
+AREA = 60e-6  # [m^2] core_area of the test transformer
+TOPOLOGIES = FORWARD_TOPOLOGIES
+SYNC = ("rectifier", "freewheel")
+
+
+def case(topology, *, lossless=True, io=None, l_m=None, n_s=None, vin=None, vo=None,
+         sync=(), dead_time=None, **kw):
+    """(design, parts) of a test case: 36-72 V -> 5 V (single switch) or
+    300-400 V -> 24 V (two-switch)."""
+    two = topology == "two-switch-forward"
+    if two:
+        parts = forward_parts(lossless=lossless, two_switch=True, n_p=40, n_s=n_s or 8,
+                              l_m=l_m or "5 mH", l_out="47 uH", core_area="60 mm^2", **kw)
+        design = forward_design(topology, vin=vin or {"min": "300 V", "max": "400 V"},
+                                vo=vo or "24 V", io=io, fs="120 kHz", sync=sync,
+                                dead_time=dead_time)
+    else:
+        kw.setdefault("n_r", N_R)
+        parts = forward_parts(lossless=lossless, n_p=N_P, n_s=n_s or N_S, l_m=l_m or "150 uH",
+                              **kw)
+        design = forward_design(topology, vin=vin, vo=vo or "5 V", io=io, sync=sync,
+                                dead_time=dead_time)
+    return design, parts
+
+
+def evaluate(tmp_path, topology, c_in="1 F", **kw):
+    design, parts = case(topology, c_in=c_in, **kw)
+    return run(load_design(write_case(tmp_path, design, parts)))
+
+
+def values(ev, ref, quantity):
+    (s,) = [s for s in ev.stresses if s.ref == ref and s.quantity == quantity]
+    return s.values
+
+
+def turns(ev):
+    xf = ev.stage.transformer
+    return xf.n_p, xf.n_s, (xf.n_r if xf.n_r else xf.n_p)
+
+
+def sync_case(tmp_path, topology, sync=SYNC, dead_time="100 ns", lossless=True, io=None,
+              c_in="1 F", **kw):
+    design, parts = case(topology, lossless=lossless, sync=sync, dead_time=dead_time, io=io,
+                         c_in=c_in, **kw)
+    return run(load_design(write_case(tmp_path, design, parts)))
+
+
+def load(tmp_path, design, parts):
+    return load_design(write_case(tmp_path, design, parts))

@@ -397,37 +397,6 @@ def test_implausible_input_is_reported(tmp_path, case):
     assert_input_error(status, err, path, case.key, *case.fragments)
 
 
-@pytest.mark.parametrize("topology,vin,vo,ok", [
-    ("buck", (20, 30), (12, 12), True), ("buck", (20, 30), (12, 20), False),
-    ("buck", (20, 30), (25, 25), False), ("boost", (12, 24), (48, 48), True),
-    ("boost", (12, 24), (24, 30), False), ("boost", (12, 24), (20, 20), False),
-    ("full-bridge", (36, 75), (48, 48), True),
-])
-def test_check_envelope_by_topology(topology, vin, vo, ok):
-    """check_envelope passes a buck whose output stays below its lowest input and a
-    boost whose output stays above its highest input, and refuses the others naming
-    operating.output_voltage; an isolated converter may step up or down.
-
-    Source: converter basics (buck D = Vo/Vin < 1, boost D = 1 - Vin/Vo > 0).
-    """
-    from types import SimpleNamespace
-
-    from stresscheck.errors import InputError
-    from stresscheck.topologies import check_envelope
-    from stresscheck.units import Spread
-
-    design = SimpleNamespace(path=Path("d.toml"), topology=topology, max_duty=None,
-                             input_voltage=Spread(vin[0], sum(vin) / 2, vin[1]),
-                             output_voltage=Spread(vo[0], sum(vo) / 2, vo[1]))
-    if ok:
-        check_envelope(design)
-    else:
-        with pytest.raises(InputError) as info:
-            check_envelope(design)
-        assert info.value.key == "operating.output_voltage"
-        assert topology in str(info.value)
-
-
 def test_missing_design_and_folder_as_design(tmp_path):
     """A design path that does not exist, or is a folder, exits 2 naming it.
 

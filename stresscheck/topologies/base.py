@@ -111,12 +111,12 @@ class Stage:
     topology: str
     rectifier: str | None
     modulation: str
-    vin: np.ndarray
-    vo: np.ndarray
-    io: np.ndarray
-    fs: np.ndarray
-    duty_limit: np.ndarray
-    dead_time: float
+    v_in: np.ndarray  # [V] input (source) voltage, (N,)
+    vo: np.ndarray  # [V] output voltage, (N,)
+    io: np.ndarray  # [A] output (load) current, (N,)
+    fs: np.ndarray  # [Hz] switching frequency of each switch, (N,)
+    duty_limit: np.ndarray  # [1] largest duty ratio per switch, (N,)
+    dead_time: float  # [s]
     devices: dict[tuple[str, int], Device]
     transformer: Magnetics | None
     inductors: list[Inductor]
@@ -169,12 +169,71 @@ class Topology(Protocol):
     periodic steady state of every corner at once.
     """
 
-    def check_envelope(self, design) -> None: ...
+    def check_envelope(self, design) -> None:
+        """Refuse an operating envelope the converter cannot produce.
 
-    def layout(self, design) -> Layout: ...
+        Parameters
+        ----------
+        design : Design
+            The loaded design: its topology, ``input_voltage`` and ``output_voltage``
+            spreads [V] and ``max_duty`` [1].
 
-    def duty_limit(self, design, fs: np.ndarray) -> np.ndarray: ...
+        Raises
+        ------
+        InputError
+            Naming the design file and the key that cannot hold.
+        """
 
-    def duty_limit_reason(self, design) -> str: ...
+    def layout(self, design) -> Layout:
+        """The roles of the design's converter and their counts.
 
-    def evaluate(self, stage: Stage) -> StageResult: ...
+        Parameters
+        ----------
+        design : Design
+            The loaded design.
+
+        Returns
+        -------
+        Layout
+            Roles, counts and the part kinds modelled in each.
+
+        Raises
+        ------
+        InputError
+            For an option or a combination the model does not cover.
+        """
+
+    def duty_limit(self, design, fs: np.ndarray) -> np.ndarray:
+        """The topology's own largest duty ratio per switch.
+
+        Parameters
+        ----------
+        design : Design
+            The loaded design.
+        fs : numpy.ndarray
+            Switching frequency of each switch per corner, (N,) [Hz].
+
+        Returns
+        -------
+        numpy.ndarray
+            Largest duty ratio per corner, (N,) [1].
+        """
+
+    def duty_limit_reason(self, design) -> str:
+        """What sets ``duty_limit``, in words for an error message."""
+
+    def evaluate(self, stage: Stage) -> StageResult:
+        """Periodic steady state of every corner at once.
+
+        Parameters
+        ----------
+        stage : Stage
+            Per-corner electrical parameters [SI units].
+
+        Returns
+        -------
+        StageResult
+            Waveforms [A] on a shared segment grid [s], peak blocking voltages [V],
+            winding loss [W], peak flux density [T], and the corners outside the
+            model's validity.
+        """

@@ -48,17 +48,34 @@ from .buck import check_options
 def check_envelope(design) -> None:
     """Refuse an output that does not stay above the input: a boost only steps up, its
     duty ratio D = 1 − V_in/V_o > 0 at every corner (Erickson & Maksimović, 2nd ed.,
-    §2.3 — from memory), so the lowest output must exceed the highest input [V]."""
-    vin, vo = design.input_voltage, design.output_voltage
-    if vo.min <= vin.max:
+    §2.3 — from memory), so the lowest output must exceed the highest input [V].
+
+    Parameters
+    ----------
+    design : Design
+        The loaded design (``input_voltage``, ``output_voltage`` [V], ``max_duty`` [1]).
+    """
+    v_in, vo = design.input_voltage, design.output_voltage
+    if vo.min <= v_in.max:
         raise InputError(design.path, "operating.output_voltage", f"a boost converter only "
                          f"steps up: the output ({vo.min:g} V at least) must stay above the "
-                         f"highest input voltage ({vin.max:g} V, operating.input_voltage)")
+                         f"highest input voltage ({v_in.max:g} V, operating.input_voltage)")
 
 
 def layout(design) -> Layout:
     """Roles of a boost design; refuses the options it does not take and a surge that
-    reaches the output voltage."""
+    reaches the output voltage.
+
+    Parameters
+    ----------
+    design : Design
+        The loaded design.
+
+    Returns
+    -------
+    Layout
+        Roles, their counts and the part kinds modelled in each.
+    """
     check_options(design, "boost")  # output above input: check_envelope
     path = design.path
     if design.input_surge is not None and design.input_surge >= design.output_voltage.min:
@@ -78,7 +95,20 @@ def layout(design) -> Layout:
 
 def duty_limit(design, fs):
     """Largest duty ratio of the switch [1]: as the buck's, with the rectifier as the
-    passive (or synchronous) device."""
+    passive (or synchronous) device.
+
+    Parameters
+    ----------
+    design : Design
+        The loaded design.
+    fs : numpy.ndarray
+        Switching frequency of each switch per corner, (N,) [Hz].
+
+    Returns
+    -------
+    numpy.ndarray
+        Largest duty ratio per corner, (N,) [1].
+    """
     return buck.duty_limit(design, fs, "rectifier")
 
 
@@ -87,5 +117,18 @@ def duty_limit_reason(design) -> str:
 
 
 def evaluate(st: Stage) -> StageResult:
+    """Boost, every corner, by the shared switching cell (:mod:`.switching_cell`).
+
+    Parameters
+    ----------
+    st : Stage
+        Per-corner electrical parameters [SI units].
+
+    Returns
+    -------
+    StageResult
+        Waveforms [A] on a shared segment grid [s], peak blocking voltages [V],
+        winding loss [W], peak flux density [T] and the corners outside the model.
+    """
     c = cell.cell_from_stage(st, "boost", "rectifier")
     return cell.stage_result(c, cell.solve(c), "rectifier")

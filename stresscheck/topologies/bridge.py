@@ -16,7 +16,18 @@ from .bridge_rectifier import GROUPS
 
 
 def layout(design) -> Layout:
-    """Roles of a bridge-family design; InputError for combinations not modelled."""
+    """Roles of a bridge-family design; InputError for combinations not modelled.
+
+    Parameters
+    ----------
+    design : Design
+        The loaded design.
+
+    Returns
+    -------
+    Layout
+        Roles, their counts and the part kinds modelled in each.
+    """
     path, top, rect = design.path, design.topology, design.rectifier
     if rect is None:
         raise InputError(path, "converter.rectifier", "a bridge-family converter needs a "
@@ -70,7 +81,13 @@ def layout(design) -> Layout:
 
 def check_envelope(design) -> None:
     """Refuse a controller limit ``max_duty`` above 50 %: each switch of a bridge-family
-    converter conducts at most half a period, so such a limit cannot apply."""
+    converter conducts at most half a period, so such a limit cannot apply.
+
+    Parameters
+    ----------
+    design : Design
+        The loaded design (``input_voltage``, ``output_voltage`` [V], ``max_duty`` [1]).
+    """
     if design.max_duty is not None and design.max_duty > 0.5:
         top = design.topology
         raise InputError(design.path, "converter.max_duty", f"each switch of a {top} "
@@ -81,7 +98,20 @@ def check_envelope(design) -> None:
 
 def duty_limit(design, fs):
     """Each switch conducts at most half a period less the dead time [1]; phase shift:
-    the leading leg switches at least one dead time before the lagging leg."""
+    the leading leg switches at least one dead time before the lagging leg.
+
+    Parameters
+    ----------
+    design : Design
+        The loaded design.
+    fs : numpy.ndarray
+        Switching frequency of each switch per corner, (N,) [Hz].
+
+    Returns
+    -------
+    numpy.ndarray
+        Largest duty ratio per corner, (N,) [1].
+    """
     return 0.5 - design.dead_time * fs
 
 
@@ -95,7 +125,19 @@ def duty_limit_reason(design) -> str:
 
 
 def evaluate(st: Stage) -> StageResult:
-    """Periodic steady state of every corner by the stage's modulation's model."""
+    """Periodic steady state of every corner by the stage's modulation's model.
+
+    Parameters
+    ----------
+    st : Stage
+        Per-corner electrical parameters [SI units].
+
+    Returns
+    -------
+    StageResult
+        Waveforms [A] on a shared segment grid [s], peak blocking voltages [V],
+        winding loss [W], peak flux density [T] and the corners outside the model.
+    """
     if st.modulation == "phase-shift":
         return bridge_phase_shift.evaluate(st)
     return bridge_pwm.evaluate(st)

@@ -118,7 +118,7 @@ def _half(p, v, d, i_a, i_m, p_a):
     state = (-p_a, i_a.copy(), -i_m)
     # S0: the lagging leg's body diode; the reversing current flows against its drop,
     # which adds to the source.
-    e0, r0 = v + p.vb, p.r_lead + p.rb + p.r_p
+    e0, r0 = v + p.vf_body, p.r_lead + p.rd_body + p.r_p
     t_z = iv.zero_crossing(p, e0, r0, *state)
     dur = np.minimum(t_d, t_z)
     end = iv.shared(p, e0, r0, *state, dur)
@@ -196,7 +196,7 @@ def _half(p, v, d, i_a, i_m, p_a):
         return s_end, end_shared
 
     # leading leg's dead time: Q1's body diode in the loop, then its channel
-    state, sh = freewheel(state, -p.vb, p.rb + p.r_lag + p.r_p, t_d, FA_SH, FA_SI,
+    state, sh = freewheel(state, -p.vf_body, p.rd_body + p.r_lag + p.r_p, t_d, FA_SH, FA_SI,
                           np.zeros(n_c, dtype=bool))
     state, _ = freewheel(state, np.zeros(n_c), p.r_diag, (0.5 - d) * p.ts - t_d, FB_SH,
                          FB_SI, sh)
@@ -263,11 +263,25 @@ def _only(mask, values):
 
 
 def evaluate(st: Stage) -> StageResult:
+    """Phase-shifted full bridge, every corner: the bus ripple around the steady
+    state of the intervals (module docstring).
+
+    Parameters
+    ----------
+    st : Stage
+        Per-corner electrical parameters [SI units].
+
+    Returns
+    -------
+    StageResult
+        Waveforms [A] on a shared segment grid [s], peak blocking voltages [V],
+        winding loss [W], peak flux density [T] and the corners outside the model.
+    """
     p = iv.Params(st)
     n, io = p.n, st.io
     cin = st.capacitors[("input-capacitor", 0)]
     applied = np.concatenate([APPLIED, APPLIED])
-    v = st.vin.copy()
+    v = st.v_in.copy()
     start = None
     for _ in range(BUS_PASSES):  # the bus ripple lowers the mean applied voltage
         start, (dt, ip, il, m, shared), converged = _solve(p, v, start)
@@ -276,7 +290,7 @@ def evaluate(st: Stage) -> StageResult:
         i_bus = grid.wave(*_mirror(_only(APPLIED, ip)))
         i_dc = i_bus.mean()
         i_cin = i_dc - i_bus
-        bus = capacitor_voltage_samples(i_cin, cin.c, cin.esr, st.vin)
+        bus = capacitor_voltage_samples(i_cin, cin.c, cin.esr, st.v_in)
         v_new = mean_over_samples(bus, grid, applied)
         settled = np.allclose(v_new, v, rtol=1e-9, atol=0)
         v = v_new
@@ -342,7 +356,7 @@ def evaluate(st: Stage) -> StageResult:
         return np.concatenate([half_values, half_values])[None, :, None]
 
     # an off switch sees the bus plus the drop of its complement's body diode
-    v_body = per_corner(p.vb) + per_corner(p.rb) * np.abs(ip_s)
+    v_body = per_corner(p.vf_body) + per_corner(p.rd_body) * np.abs(ip_s)
     lead = np.concatenate([LEAD_BODY, LEAD_BODY])[None, :] & lasting
     lag = np.concatenate([LAG_BODY, LAG_BODY])[None, :] & lasting
     v_lead = np.maximum(bus_max, max_over(bus + v_body, lead))
@@ -352,8 +366,9 @@ def evaluate(st: Stage) -> StageResult:
     # transformer voltage where one rectifier conducts, from the instantaneous loop
     # relation (module docstring), with the first half's sign of i_p
     e_loop = np.where(per_segment(APPLIED), bus, 0.0)
-    e_loop = np.where(per_segment(LEAD_BODY), -per_corner(p.vb), e_loop)
-    r_loop = np.where(per_segment(LEAD_BODY), per_corner(p.rb + p.r_lag + p.r_p), per_corner(p.r_diag))
+    e_loop = np.where(per_segment(LEAD_BODY), -per_corner(p.vf_body), e_loop)
+    r_loop = np.where(per_segment(LEAD_BODY), per_corner(p.rd_body + p.r_lag + p.r_p),
+                      per_corner(p.r_diag))
     ip_first = ip_s * np.where(np.arange(2 * HALF) < HALF, 1.0, -1.0)[None, :, None]
     w_s = per_corner(p.vo + p.c1) + per_corner(p.dcr + p.r1) * il_s
     v_tx = (e_loop - r_loop * ip_first + p.l_lk * n * w_s / per_corner(p.l)) / \
@@ -390,7 +405,7 @@ def evaluate(st: Stage) -> StageResult:
     if p.sync:
         # forced continuous conduction: the channels conduct either way, but a body
         # diode (dead time, commutation, freewheel) only forward
-        body_min = np.min([np.where(grid.dt > 0, np.minimum(w.a, w.b), np.inf).min(axis=1)
+        body_min = np.min([w.min(grid.dt > 0)
                            for w in rect_body.values()], axis=0)
         # ... and the outgoing rectifier at the lagging leg's transition, where its
         # channel turns off, also with no dead time (S0 of zero length)

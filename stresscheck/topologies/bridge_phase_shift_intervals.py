@@ -56,8 +56,8 @@ class Params:
         sw = st.group("switch")
         self.r_lead = (sw[0].r_on + sw[1].r_on) / 2
         self.r_lag = (sw[2].r_on + sw[3].r_on) / 2
-        self.vb = np.mean([d.v_f0 for d in sw], axis=0)
-        self.rb = np.mean([d.r_d for d in sw], axis=0)
+        self.vf_body = np.mean([d.v_f0 for d in sw], axis=0)
+        self.rd_body = np.mean([d.r_d for d in sw], axis=0)
         rect = RectifierGroup(st.group("rectifier"))
         self.vf, self.rd = rect.v_f0, rect.r_d  # diode, or the MOSFET's body diode
         self.sync = rect.sync

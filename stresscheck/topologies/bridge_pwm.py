@@ -60,7 +60,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..waveforms import Grid, capacitor_voltage_samples, max_over, mean_over_samples
+from ..waveforms import (Grid, capacitor_voltage_samples, max_over, mean_over_samples,
+                         per_corner)
 from .base import Stage, StageResult
 from .bridge_rectifier import GROUPS, rectifier_groups
 
@@ -160,7 +161,19 @@ def inductor_wave(grid: Grid, u, inductance, i_mean):
 
 
 def evaluate(st: Stage) -> StageResult:
-    """PWM model of every corner (module docstring)."""
+    """PWM model of every corner (module docstring).
+
+    Parameters
+    ----------
+    st : Stage
+        Per-corner electrical parameters [SI units].
+
+    Returns
+    -------
+    StageResult
+        Waveforms [A] on a shared segment grid [s], peak blocking voltages [V],
+        winding loss [W], peak flux density [T] and the corners outside the model.
+    """
     top, rect = st.topology, st.rectifier
     doubler = rect == "current-doubler"
     xf = st.transformer
@@ -180,7 +193,7 @@ def evaluate(st: Stage) -> StageResult:
     t_d = st.dead_time if sync else 0.0
     i_sec = io / 2 if doubler else io  # mean secondary current of an on-interval
 
-    v_src = st.vin / 2 if top == "half-bridge" else st.vin.copy()
+    v_src = st.v_in / 2 if top == "half-bridge" else st.v_in.copy()
     gain = n if doubler else 2 * n  # V_o = gain·D·V_src, lossless
     i_m = v_src * (st.vo / (gain * v_src)) * ts / (2 * xf.l_m)
     for _ in range(BUS_PASSES):
@@ -227,8 +240,8 @@ def evaluate(st: Stage) -> StageResult:
             i_c1 = i_a * -1 + i_dc
             i_c2 = i_b * -1 + i_dc
             c1, c2 = st.capacitors[("split-capacitor", 0)], st.capacitors[("split-capacitor", 1)]
-            v_c1 = capacitor_voltage_samples(i_c1, c1.c, c1.esr, st.vin / 2)
-            v_c2 = capacitor_voltage_samples(i_c2, c2.c, c2.esr, st.vin / 2)
+            v_c1 = capacitor_voltage_samples(i_c1, c1.c, c1.esr, st.v_in / 2)
+            v_c2 = capacitor_voltage_samples(i_c2, c2.c, c2.esr, st.v_in / 2)
             bus = v_c1 + v_c2
             src1, src2 = v_c1, v_c2
             currents[("split-capacitor", 0)] = i_c1
@@ -240,7 +253,7 @@ def evaluate(st: Stage) -> StageResult:
             i_dc = i_bus.mean()
             i_cin = i_dc - i_bus
             cin = st.capacitors[("input-capacitor", 0)]
-            bus = capacitor_voltage_samples(i_cin, cin.c, cin.esr, st.vin)
+            bus = capacitor_voltage_samples(i_cin, cin.c, cin.esr, st.v_in)
             src1 = src2 = bus
             currents[("input-capacitor", 0)] = i_cin
             v_block[("input-capacitor", 0)] = max_over(bus)
@@ -268,8 +281,8 @@ def evaluate(st: Stage) -> StageResult:
     l1_s = i_l[0].samples()
     if top == "push-pull":
         # off switch: bus + emf of the conducting half (coupled winding of equal turns)
-        v_q0 = max_over(2 * src2 - (switch_r[1][:, None, None] + xf.r_p) * ib_s, MASK_ON2)
-        v_q1 = max_over(2 * src1 - (switch_r[0][:, None, None] + xf.r_p) * ia_s, MASK_ON1)
+        v_q0 = max_over(2 * src2 - (per_corner(switch_r[1]) + xf.r_p) * ib_s, MASK_ON2)
+        v_q1 = max_over(2 * src1 - (per_corner(switch_r[0]) + xf.r_p) * ia_s, MASK_ON1)
         bus_max = max_over(bus)
         v_block[("switch", 0)] = np.maximum(v_q0, bus_max)
         v_block[("switch", 1)] = np.maximum(v_q1, bus_max)
@@ -278,8 +291,8 @@ def evaluate(st: Stage) -> StageResult:
         for k in range(len(switch_r)):
             v_block[("switch", k)] = bus_max
     # primary emf during each on-interval, sampled
-    emf1 = src1 - r_prim[:, None, None] * ia_s
-    emf2 = src2 - r_prim[:, None, None] * ib_s
+    emf1 = src1 - per_corner(r_prim) * ia_s
+    emf2 = src2 - per_corner(r_prim) * ib_s
     if doubler:
         l2_s = i_l[1].samples()
         both_s = l1_s + l2_s
@@ -315,7 +328,7 @@ def evaluate(st: Stage) -> StageResult:
     i_min = np.min([w.min() for w in i_l], axis=0)
     if sync:
         # forward current during the body-diode intervals (zero-length ones included)
-        body_min = np.minimum(*[np.where(mask, np.minimum(w.a, w.b), np.inf).min(axis=1)
+        body_min = np.minimum(*[w.min(mask)
                                 for w, mask in ((cur_a, BODY_A), (cur_b, BODY_B))])
         invalid = [
             ((t_d > 0) & (body_min < 0), "a synchronous rectifier carries reverse current "

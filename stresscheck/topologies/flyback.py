@@ -141,7 +141,8 @@ import numpy as np
 
 from ..errors import InputError
 from ..regulation import solve_duty
-from ..waveforms import Grid, capacitor_voltage_samples, max_over, mean_over_samples
+from ..waveforms import (Grid, capacitor_voltage_samples, max_over, mean_over_samples,
+                         per_corner)
 from .base import Layout, RoleSpec, Stage, StageResult
 
 K_SUB = 6  # trapezoidal steps per conduction interval
@@ -171,11 +172,28 @@ def synchronous(design) -> bool:
 def check_envelope(design) -> None:
     """Nothing to refuse up front: the turns ratio lets a flyback step up or down; a
     ratio that cannot reach the output at some corner is refused by the engine with
-    that corner named (``RegulationError``)."""
+    that corner named (``RegulationError``).
+
+    Parameters
+    ----------
+    design : Design
+        The loaded design (``input_voltage``, ``output_voltage`` [V], ``max_duty`` [1]).
+    """
 
 
 def layout(design) -> Layout:
-    """Roles of a flyback design; InputError for options not modelled."""
+    """Roles of a flyback design; InputError for options not modelled.
+
+    Parameters
+    ----------
+    design : Design
+        The loaded design.
+
+    Returns
+    -------
+    Layout
+        Roles, their counts and the part kinds modelled in each.
+    """
     path = design.path
     if design.rectifier is not None:
         raise InputError(path, "converter.rectifier", "a flyback converter has a single "
@@ -207,7 +225,20 @@ def layout(design) -> Layout:
 def duty_limit(design, fs):
     """Largest duty ratio [1]: 1 when the design gives max_duty (the engine applies it),
     else :data:`DEFAULT_MAX_DUTY` (see the module notes); a synchronous rectifier also
-    needs its two dead times in each period, D <= 1 − 2·t_d·fs."""
+    needs its two dead times in each period, D <= 1 − 2·t_d·fs.
+
+    Parameters
+    ----------
+    design : Design
+        The loaded design.
+    fs : numpy.ndarray
+        Switching frequency of each switch per corner, (N,) [Hz].
+
+    Returns
+    -------
+    numpy.ndarray
+        Largest duty ratio per corner, (N,) [1].
+    """
     limit = 1.0 if design.max_duty is not None else DEFAULT_MAX_DUTY
     limit = np.full(np.shape(fs), limit)
     if synchronous(design):
@@ -281,7 +312,7 @@ class _Params:
         body = (vc + rect.v_f0, rect.r_d + xf.r_s + cout.esr)  # diode or body diode
         cond = (vc, rect.r_on + xf.r_s + cout.esr) if self.sync else body
         self.off = [body, cond, body]
-        self.vb, self.rb = body  # the diode (DCM)
+        self.v_diode, self.r_diode = body  # the diode (DCM)
 
     def off_times(self, d):
         """Durations of the off-time sub-intervals for duty d (N,) [s]: dead time A,
@@ -335,8 +366,8 @@ def _dcm(p: _Params):
     def delivered(d):
         h1 = d * p.ts / K_SUB
         s0 = _affine(p.va, p.ra, p.l, h1)[1][:, -1] / p.n
-        t2 = _reset_time(s0, p.vb, p.rb, p.ls)
-        u2, w2 = _affine(-p.vb, p.rb, p.ls, t2 / K_SUB)
+        t2 = _reset_time(s0, p.v_diode, p.r_diode, p.ls)
+        u2, w2 = _affine(-p.v_diode, p.r_diode, p.ls, t2 / K_SUB)
         return _charge(s0[:, None] * u2 + w2, t2 / K_SUB) / p.ts, s0, t2
 
     duty, reachable = solve_duty(lambda d: delivered(d)[0], p.io, 0.0, DUTY_SEARCH_MAX)
@@ -345,20 +376,33 @@ def _dcm(p: _Params):
 
 
 def evaluate(st: Stage) -> StageResult:
+    """Flyback, every corner, CCM or DCM (module docstring).
+
+    Parameters
+    ----------
+    st : Stage
+        Per-corner electrical parameters [SI units].
+
+    Returns
+    -------
+    StageResult
+        Waveforms [A] on a shared segment grid [s], peak blocking voltages [V],
+        winding loss [W], peak flux density [T] and the corners outside the model.
+    """
     xf = st.transformer
     (rect,) = st.group("rectifier")
     (sw,) = st.group("switch")
     cin = st.capacitors[("input-capacitor", 0)]
     cout = st.capacitors[("output-capacitor", 0)]
-    vin, vo, io = st.vin, st.vo, st.io
+    v_in, vo, io = st.v_in, st.vo, st.io
     rs = xf.r_s
     n = xf.n_s / xf.n_p
     ts = 1.0 / st.fs
     sync = rect.kind == "mosfet"
     zn = np.zeros_like(io)
 
-    i_dc = vo * io / vin  # first guess of the source current [A]
-    va = vin + cin.esr * i_dc
+    i_dc = vo * io / v_in  # first guess of the source current [A]
+    va = v_in + cin.esr * i_dc
     vc = vo - cout.esr * io
     for _ in range(MAX_PASSES):
         p = _Params(st, va, vc)
@@ -399,7 +443,7 @@ def evaluate(st: Stage) -> StageResult:
         i_dc = i_p.mean()
         i_cin = i_dc - i_p
         i_cout = i_s - io
-        va_new = (mean_over_samples(capacitor_voltage_samples(i_cin, cin.c, 0.0, vin),
+        va_new = (mean_over_samples(capacitor_voltage_samples(i_cin, cin.c, 0.0, v_in),
                                     grid, MASK_ON) + cin.esr * i_dc)
         vc_new = (mean_over_samples(capacitor_voltage_samples(i_cout, cout.c, 0.0, vo),
                                     grid, MASK_OFF) - cout.esr * io)
@@ -410,23 +454,20 @@ def evaluate(st: Stage) -> StageResult:
             break
 
     # blocking voltages ---------------------------------------------------------------
-    bus = capacitor_voltage_samples(i_cin, cin.c, cin.esr, vin)
+    bus = capacitor_voltage_samples(i_cin, cin.c, cin.esr, v_in)
     v_out = capacitor_voltage_samples(i_cout, cout.c, cout.esr, vo)
     ip_s, is_s = i_p.samples(), i_s.samples()
 
-    def col(x):
-        return np.broadcast_to(np.asarray(x, dtype=float), io.shape)[:, None, None]
-
     # rectifier drop per off-time segment: v_f0 + r_d·i (diode, body diode in a dead time
     # of nonzero length) or R_on·i (channel)
-    body_f0, body_r = col(rect.v_f0), col(rect.r_d + rs)
-    cond_f0 = col(0.0) if sync else body_f0
-    cond_r = col(rect.r_on + rs) if sync else body_r
+    body_f0, body_r = per_corner(rect.v_f0), per_corner(rect.r_d + rs)
+    cond_f0 = per_corner(0.0) if sync else body_f0
+    cond_r = per_corner(rect.r_on + rs) if sync else body_r
     dead = ((MASK_DEAD_A | MASK_DEAD_B)[None, :] & (grid.dt > 0))[:, :, None]
     drop = np.where(dead, body_f0 + body_r * is_s, cond_f0 + cond_r * is_s)
     drain = bus + (v_out + drop) / n
     v_sw = np.maximum(max_over(drain, MASK_OFF), max_over(bus, MASK_IDLE))
-    reverse = v_out + n * (bus - col(sw.r_on + xf.r_p) * ip_s)
+    reverse = v_out + n * (bus - per_corner(sw.r_on + xf.r_p) * ip_s)
     v_rect = np.maximum(max_over(reverse, MASK_ON), max_over(v_out, MASK_IDLE))
     v_block = {("switch", 0): v_sw, ("rectifier", 0): v_rect,
                ("input-capacitor", 0): max_over(bus), ("output-capacitor", 0): max_over(v_out)}

@@ -76,11 +76,28 @@ def _synchronous_freewheel(design) -> bool:
 def check_envelope(design) -> None:
     """Nothing to refuse up front: the turns ratio lets a forward converter step up or
     down; a ratio that cannot reach the output at some corner is refused by the engine
-    with that corner named (``RegulationError``)."""
+    with that corner named (``RegulationError``).
+
+    Parameters
+    ----------
+    design : Design
+        The loaded design (``input_voltage``, ``output_voltage`` [V], ``max_duty`` [1]).
+    """
 
 
 def layout(design) -> Layout:
-    """Roles of a forward-family design; InputError for options not modelled."""
+    """Roles of a forward-family design; InputError for options not modelled.
+
+    Parameters
+    ----------
+    design : Design
+        The loaded design.
+
+    Returns
+    -------
+    Layout
+        Roles, their counts and the part kinds modelled in each.
+    """
     path, top = design.path, design.topology
     two = top == TWO_SWITCH
     if design.rectifier is not None:
@@ -129,6 +146,18 @@ def duty_limit(design, fs):
     (Erickson & Maksimović, 2nd ed., §6.3.3 — from memory). Two-switch: the clamp diodes
     reset at V_in, D_max = 1/2. The reset with drops is checked at every corner in
     ``evaluate``.
+
+    Parameters
+    ----------
+    design : Design
+        The loaded design.
+    fs : numpy.ndarray
+        Switching frequency of each switch per corner, (N,) [Hz].
+
+    Returns
+    -------
+    numpy.ndarray
+        Largest duty ratio per corner, (N,) [1].
     """
     fs = np.asarray(fs, dtype=float)
     if design.topology == TWO_SWITCH:
@@ -159,7 +188,19 @@ def duty_limit_reason(design) -> str:
 
 def evaluate(st: Stage) -> StageResult:
     """Periodic steady state of every corner: the synchronous model where a MOSFET takes
-    the rectifier or the freewheel position, else the diode model."""
+    the rectifier or the freewheel position, else the diode model.
+
+    Parameters
+    ----------
+    st : Stage
+        Per-corner electrical parameters [SI units].
+
+    Returns
+    -------
+    StageResult
+        Waveforms [A] on a shared segment grid [s], peak blocking voltages [V],
+        winding loss [W], peak flux density [T] and the corners outside the model.
+    """
     if "mosfet" in (st.devices[("rectifier", 0)].kind, st.devices[("freewheel", 0)].kind):
         return forward_sync.evaluate(st)
     return forward_diode.evaluate(st)

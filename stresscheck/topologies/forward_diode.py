@@ -37,7 +37,7 @@ def evaluate(st: Stage) -> StageResult:
     two, n, a_r, r_prim, v0_r, r_rr = pr.two, pr.n, pr.a_r, pr.r_prim, pr.v0_r, pr.r_rr
     xf, ind = st.transformer, st.inductors[0]
     ts = 1.0 / st.fs
-    vin, vo, io = st.vin, st.vo, st.io
+    v_in, vo, io = st.v_in, st.vo, st.io
     lm, l_out, dcr = xf.l_m, ind.l, ind.dcr
     d1, d2 = st.devices[("rectifier", 0)], st.devices[("freewheel", 0)]
     r_a = xf.r_s + d1.r_d + dcr  # on-interval series resistance of the inductor path
@@ -45,9 +45,9 @@ def evaluate(st: Stage) -> StageResult:
     cin = st.capacitors[("input-capacitor", 0)]
     cout = st.capacitors[("output-capacitor", 0)]
 
-    v_on_src = vin.copy()  # mean bus voltage over the on-time
-    v_rs_src = vin.copy()  # mean bus voltage over the reset
-    delta = np.zeros_like(vin)  # magnetizing current at the end of the idle interval, −
+    v_on_src = v_in.copy()  # mean bus voltage over the on-time
+    v_rs_src = v_in.copy()  # mean bus voltage over the reset
+    delta = np.zeros_like(v_in)  # magnetizing current at the end of the idle interval, −
     duty = None
     for _ in range(MAX_PASSES):
         # the on-time's mean switch current carries the magnetizing current −δ + ΔI_m/2:
@@ -127,7 +127,7 @@ def evaluate(st: Stage) -> StageResult:
         i_bus = i_sw - i_rst
         i_dc = i_bus.mean()
         i_cin = i_bus * -1 + i_dc
-        bus = capacitor_voltage_samples(i_cin, cin.c, cin.esr, vin)
+        bus = capacitor_voltage_samples(i_cin, cin.c, cin.esr, v_in)
 
         # idle (CCM): the forward diode conducts beside the freewheel diode as soon as the
         # secondary swings to v_f0,rect − v_free(i_L) < 0; that voltage, reflected, drives
@@ -151,7 +151,8 @@ def evaluate(st: Stage) -> StageResult:
     isw_s, il_s, im_s = i_sw.samples(), i_l.samples(), i_m.samples()
     on_ns = np.broadcast_to(MASK_ON, reset_on.shape)
     e_on_s = bus - per_corner(r_prim) * isw_s  # primary emf during the on-time
-    v_res_s = per_corner(a_r) * (bus + per_corner(v0_r)) + per_corner(r_rr) * im_s  # reset voltage, primary
+    # reset voltage on the primary
+    v_res_s = per_corner(a_r) * (bus + per_corner(v0_r)) + per_corner(r_rr) * im_s
     v_out = capacitor_voltage_samples(i_l - io, cout.c, cout.esr, vo)
     v_free_s = per_corner(d2.v_f0) + per_corner(d2.r_d) * il_s
     v_block = primary_blocking(pr, bus, isw_s, im_s, e_on_s, v_res_s, per_corner(v_clamp),

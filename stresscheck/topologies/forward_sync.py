@@ -62,11 +62,11 @@ def evaluate(st: Stage) -> StageResult:
     two, n, a_r, r_prim, v0_r, r_rr = pr.two, pr.n, pr.a_r, pr.r_prim, pr.v0_r, pr.r_rr
     xf, ind = st.transformer, st.inductors[0]
     ts = 1.0 / st.fs
-    vin, vo, io = st.vin, st.vo, st.io
+    v_in, vo, io = st.v_in, st.vo, st.io
     lm, l_out = xf.l_m, ind.l
     q1, q2 = st.devices[("rectifier", 0)], st.devices[("freewheel", 0)]
     sync_r, sync_f = q1.kind == "mosfet", q2.kind == "mosfet"
-    z0 = np.zeros_like(vin)
+    z0 = np.zeros_like(v_in)
     # forward position in the on-time: channel (0 + R_on·i) or diode (v_f0 + r_d·i)
     e1, r1 = (z0, q1.r_on) if sync_r else (q1.v_f0, q1.r_d)
     # freewheel position: gated channel, and its body diode in the dead times
@@ -84,8 +84,8 @@ def evaluate(st: Stage) -> StageResult:
     def v_gated(i):
         return _as(e2, i) + _as(r2, i) * i
 
-    v_on_src, v_rs_src = vin.copy(), vin.copy()
-    delta = np.zeros_like(vin)
+    v_on_src, v_rs_src = v_in.copy(), v_in.copy()
+    delta = np.zeros_like(v_in)
     n_seg = 5 * N_SUB
     # mean inductor and magnetizing current of every piece in the last pass
     m_p = np.repeat(io[:, None], n_seg, axis=1)
@@ -180,7 +180,7 @@ def evaluate(st: Stage) -> StageResult:
         i_bus = i_sw - i_rst
         i_dc = i_bus.mean()
         i_cin = i_bus * -1 + i_dc
-        bus = capacitor_voltage_samples(i_cin, cin.c, cin.esr, vin)
+        bus = capacitor_voltage_samples(i_cin, cin.c, cin.esr, v_in)
         v_on_new = mean_over_samples(bus, grid, on_mask)
         v_rs_new = mean_over_samples(bus, grid, reset_on, v_on_new)
         m_new = (i_l.a + i_l.b) / 2

@@ -69,7 +69,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..regulation import solve_duty
-from ..waveforms import PWL, Grid, capacitor_voltage_samples, max_over
+from ..waveforms import PWL, Grid, capacitor_voltage_samples, max_over, per_corner
 from .base import CapacitorBank, Device, StageResult
 
 ON, DEAD_A, OFF, DEAD_B, IDLE = range(5)  # intervals of the period
@@ -98,7 +98,7 @@ class Cell:
     """Per-corner parameters of one cell [SI units], (N,) arrays unless noted."""
 
     kind: str  # "buck" | "boost"
-    vin: np.ndarray
+    v_in: np.ndarray
     vo: np.ndarray
     io: np.ndarray
     ts: np.ndarray  # [s] switching period
@@ -122,7 +122,7 @@ class Solution:
     grid: Grid
     i_l: PWL  # [A]
     states: np.ndarray  # (N, S) int conduction state per grid segment
-    v_in: np.ndarray  # (N, S, k) input-capacitor terminal voltage samples [V]
+    v_bus: np.ndarray  # (N, S, k) input-capacitor terminal voltage samples [V]
     v_out: np.ndarray  # (N, S, k) output-capacitor terminal voltage samples [V]
     i_cin: PWL  # [A] into the input capacitor bank
     i_cout: PWL  # [A] into the output capacitor bank
@@ -131,53 +131,45 @@ class Solution:
     invalid: list
 
 
-def _col(x, n):
-    return np.broadcast_to(np.asarray(x, dtype=float), (n,))[:, None]
-
-
-def source_table(c: Cell, vb: np.ndarray, vc: np.ndarray):
+def source_table(c: Cell, v_bus: np.ndarray, v_out: np.ndarray):
     """E [V] and R [ohm] of v_L = E − R·i for every grid segment and state, (N, S, 5).
 
-    ``vb``, ``vc``: (N, S) mean input / output capacitor voltage over each segment [V].
-    Buck (v_L = v_sw − DCR·i − v_out):                boost (v_L = v_in − DCR·i − v_sw):
-      ON     v_sw = v_in − R_A·i                        v_sw = R_A·i
+    ``v_bus``, ``v_out``: (N, S) mean input / output capacitor voltage over each segment
+    [V].
+    Buck (v_L = v_sw − DCR·i − v_out):                boost (v_L = v_bus − DCR·i − v_sw):
+      ON     v_sw = v_bus − R_A·i                       v_sw = R_A·i
       P_FWD  v_sw = −(v_f0 + r_d·i)                     v_sw = v_out + v_f0 + r_d·i
       P_CH   v_sw = −R_P·i                              v_sw = v_out + R_P·i
-      A_BODY v_sw = v_in + v_f0,A − r_d,A·i  (i < 0)    v_sw = −v_f0,A + r_d,A·i  (i < 0)
+      A_BODY v_sw = v_bus + v_f0,A − r_d,A·i  (i < 0)   v_sw = −v_f0,A + r_d,A·i  (i < 0)
       ZERO   i = 0, v_L = 0
     """
-    n = vb.shape[0]
-    r_a = _col(c.a.r_on, n)
-    a_f0, a_rd = _col(c.a.v_f0, n), _col(c.a.r_d, n)
-    p_f0, p_rd = _col(c.p.v_f0, n), _col(c.p.r_d, n)
-    r_p = _col(c.p.r_on if c.p.r_on is not None else 0.0, n)
+    r_a = per_corner(c.a.r_on, 2)
+    a_f0, a_rd = per_corner(c.a.v_f0, 2), per_corner(c.a.r_d, 2)
+    p_f0, p_rd = per_corner(c.p.v_f0, 2), per_corner(c.p.r_d, 2)
+    r_p = per_corner(c.p.r_on if c.p.r_on is not None else 0.0, 2)
     dcr = c.dcr
-    zero = np.zeros_like(vb)
+    zero = np.zeros_like(v_bus)
     if c.kind == "buck":
-        e = [vb - vc, -p_f0 - vc, -vc, vb + a_f0 - vc, zero]
+        e = [v_bus - v_out, -p_f0 - v_out, -v_out, v_bus + a_f0 - v_out, zero]
     else:
-        e = [vb + zero, vb - vc - p_f0, vb - vc, vb + a_f0, zero]
+        e = [v_bus + zero, v_bus - v_out - p_f0, v_bus - v_out, v_bus + a_f0, zero]
     r = [r_a + dcr, p_rd + dcr, r_p + dcr, a_rd + dcr, zero]
     e = np.stack([x + zero for x in e], axis=2)
     r = np.stack([x + zero for x in r], axis=2)
     return e, r
 
 
-def switch_node(c: Cell, states, i, vb, vc):
-    """Switch-node voltage samples [V] (N, S, k) from currents and capacitor voltages."""
-    n = i.shape[0]
+def switch_node(c: Cell, states, i, v_bus, v_out):
+    """Switch-node voltage samples [V] (N, S, k) from the currents ``i`` [A] and the
+    capacitor voltage samples ``v_bus``, ``v_out`` [V], all (N, S, k)."""
     st = states[:, :, None]
-
-    def col(x):
-        return np.broadcast_to(np.asarray(x, dtype=float), (n,))[:, None, None]
-
-    r_a, a_f0, a_rd = col(c.a.r_on), col(c.a.v_f0), col(c.a.r_d)
-    p_f0, p_rd = col(c.p.v_f0), col(c.p.r_d)
-    r_p = col(c.p.r_on if c.p.r_on is not None else 0.0)
+    r_a, a_f0, a_rd = per_corner(c.a.r_on), per_corner(c.a.v_f0), per_corner(c.a.r_d)
+    p_f0, p_rd = per_corner(c.p.v_f0), per_corner(c.p.r_d)
+    r_p = per_corner(c.p.r_on if c.p.r_on is not None else 0.0)
     if c.kind == "buck":
-        choices = [vb - r_a * i, -(p_f0 + p_rd * i), -r_p * i, vb + a_f0 - a_rd * i, vc]
+        choices = [v_bus - r_a * i, -(p_f0 + p_rd * i), -r_p * i, v_bus + a_f0 - a_rd * i, v_out]
     else:
-        choices = [r_a * i, vc + p_f0 + p_rd * i, vc + r_p * i, -a_f0 + a_rd * i, vb]
+        choices = [r_a * i, v_out + p_f0 + p_rd * i, v_out + r_p * i, -a_f0 + a_rd * i, v_bus]
     out = np.zeros_like(i)
     for s, v in enumerate(choices):
         out = np.where(st == s, v, out)
@@ -215,7 +207,7 @@ def _ccm(c: Cell, v_tab, s3):
     """CCM candidate: duty from the volt-second balance, current levels from charge
     balance, with the piece slopes v_tab (N, S, state) [V]. Returns duty, dt, a, b,
     states (grid segments)."""
-    n = c.vin.shape[0]
+    n = c.v_in.shape[0]
     ts, td = c.ts, c.td
     states = _expand(_phase_states(c, n, s3))
     v = _pick(v_tab, states)
@@ -308,24 +300,24 @@ def _capacitors(c: Cell, grid: Grid, i_l: PWL, states):
     i_dc = i_src.mean()
     i_cin = i_src * -1.0 + i_dc
     i_cout = i_load_path - c.io
-    v_in = capacitor_voltage_samples(i_cin, c.cin.c, c.cin.esr, c.vin)
+    v_bus = capacitor_voltage_samples(i_cin, c.cin.c, c.cin.esr, c.v_in)
     v_out = capacitor_voltage_samples(i_cout, c.cout.c, c.cout.esr, c.vo)
-    return i_dc, i_cin, i_cout, v_in, v_out
+    return i_dc, i_cin, i_cout, v_bus, v_out
 
 
 def solve(c: Cell) -> Solution:
     """Periodic steady state of the cell at every corner."""
-    n = c.vin.shape[0]
+    n = c.v_in.shape[0]
     n_seg = N_PHASES * N_SUB
-    vb = np.repeat(c.vin[:, None], n_seg, axis=1)
-    vc = np.repeat(c.vo[:, None], n_seg, axis=1)
+    v_bus_seg = np.repeat(c.v_in[:, None], n_seg, axis=1)
+    v_out_seg = np.repeat(c.vo[:, None], n_seg, axis=1)
     # first guess of the segment-mean currents: the mean inductor current, lossless
-    i_mean = c.io if c.kind == "buck" else c.io * c.vo / c.vin
+    i_mean = c.io if c.kind == "buck" else c.io * c.vo / c.v_in
     m = np.repeat(i_mean[:, None], n_seg, axis=1)
     duty_prev = np.full(n, np.nan)
     converged = False
     for _ in range(MAX_PASSES):
-        e_tab, r_tab = source_table(c, vb, vc)
+        e_tab, r_tab = source_table(c, v_bus_seg, v_out_seg)
         v_tab = e_tab - r_tab * m[:, :, None]  # piece slopes at the pieces' mean currents
         if c.synchronous:
             # DEAD_B conducts through P's body diode (i_L > 0) or A's (i_L < 0): one of
@@ -370,8 +362,8 @@ def solve(c: Cell) -> Solution:
         m = (a + b) / 2
         grid = Grid(np.maximum(dt, 0.0))
         i_l = grid.wave(a, b)
-        i_dc, i_cin, i_cout, v_in, v_out = _capacitors(c, grid, i_l, states)
-        vb, vc = _segment_means(v_in), _segment_means(v_out)
+        i_dc, i_cin, i_cout, v_bus, v_out = _capacitors(c, grid, i_l, states)
+        v_bus_seg, v_out_seg = _segment_means(v_bus), _segment_means(v_out)
         change = np.abs(duty - duty_prev)
         duty_prev = duty
         if np.all(change < DUTY_TOL):
@@ -407,14 +399,14 @@ def solve(c: Cell) -> Solution:
     else:
         invalid.append((within & (dt[:, first(IDLE)] < -1e-9 * c.ts), "inconsistent "
                         "discontinuous-conduction solution (idle interval negative)"))
-    return Solution(duty=duty, grid=grid, i_l=i_l, states=states, v_in=v_in, v_out=v_out,
+    return Solution(duty=duty, grid=grid, i_l=i_l, states=states, v_bus=v_bus, v_out=v_out,
                     i_cin=i_cin, i_cout=i_cout, i_dc=i_dc, regime=regime, invalid=invalid)
 
 
 def stage_result(c: Cell, sol: Solution, p_role: str) -> StageResult:
     """Role currents and blocking voltages of the solved cell (positions ("switch", 0),
     (p_role, 0), ("inductor", 0), ("input-capacitor", 0), ("output-capacitor", 0))."""
-    n = c.vin.shape[0]
+    n = c.v_in.shape[0]
     st, i_l = sol.states, sol.i_l
     a_key, p_key = ("switch", 0), (p_role, 0)
     currents = {a_key: i_l.only(st == S_ON), ("inductor", 0): i_l,
@@ -427,13 +419,13 @@ def stage_result(c: Cell, sol: Solution, p_role: str) -> StageResult:
         body[a_key] = (-i_l).only(st == S_A_BODY)
     else:
         currents[p_key] = i_l.only(st == S_P_FWD)
-    v_sw = switch_node(c, st, i_l.samples(), sol.v_in, sol.v_out)
+    v_sw = switch_node(c, st, i_l.samples(), sol.v_bus, sol.v_out)
     if c.kind == "buck":
-        v_a, v_p = sol.v_in - v_sw, v_sw
+        v_a, v_p = sol.v_bus - v_sw, v_sw
     else:
         v_a, v_p = v_sw, sol.v_out - v_sw
     v_block = {a_key: max_over(v_a), p_key: max_over(v_p),
-               ("input-capacitor", 0): max_over(sol.v_in),
+               ("input-capacitor", 0): max_over(sol.v_bus),
                ("output-capacitor", 0): max_over(sol.v_out)}
     z = np.zeros(n)
     return StageResult(duty=sol.duty, grid=sol.grid, currents=currents, v_block=v_block,
@@ -450,7 +442,7 @@ def model_notes(c: Cell, sol: Solution, p_role: str) -> list[str]:
     if dcm.any():
         text = ("discontinuous conduction at some corners: the switch-node ringing in the "
                 "idle interval is not modelled")
-        if c.kind == "buck" and np.any(dcm & (c.vo > c.vin / 2)):
+        if c.kind == "buck" and np.any(dcm & (c.vo > c.v_in / 2)):
             text += ("; with V_o above V_in/2 it can take the freewheel diode up to one "
                      "body-diode drop above the computed v_reverse_peak")
         notes.append(text)
@@ -466,7 +458,7 @@ def cell_from_stage(st, kind: str, p_role: str) -> Cell:
     """The cell of a buck or boost ``Stage``."""
     p = st.devices[(p_role, 0)]
     ind = st.inductors[0]
-    return Cell(kind=kind, vin=st.vin, vo=st.vo, io=st.io, ts=1.0 / st.fs,
+    return Cell(kind=kind, v_in=st.v_in, vo=st.vo, io=st.io, ts=1.0 / st.fs,
                 td=st.dead_time if p.kind == "mosfet" else 0.0, l=ind.l, dcr=ind.dcr,
                 a=st.devices[("switch", 0)], p=p,
                 cin=st.capacitors[("input-capacitor", 0)],
