@@ -5,7 +5,9 @@ fixtures (values chosen to make a relation easy to check), not a parts library.
 
 from __future__ import annotations
 
-from builders import LOSSLESS, bridge_design, bridge_parts, part
+from builders import LOSSLESS, bridge_design, bridge_parts, part, write_case
+from stresscheck.design import load_design
+from stresscheck.engine import run
 
 
 def ext_parts(*, lossless=False, l_leak=None, sync_r_on="4 mohm", **kw):
@@ -48,3 +50,34 @@ def ext_design(topology="full-bridge", rectifier="center-tap", *, modulation="pw
             comp["part"] = "t-srfet"
             comp["refs"] = [f"SR{i + 1}" for i in range(len(comp["refs"]))]
     return doc
+
+
+# --- shared cases of the bridge test modules ---------------------------------------------
+
+REL = 1e-4
+L_LK = 1e-6  # [H] test leakage inductance
+
+
+def values(ev, ref, quantity):
+    (s,) = [s for s in ev.stresses if s.ref == ref and s.quantity == quantity]
+    return s.values
+
+
+def case(tmp_path, topology="full-bridge", rectifier="center-tap", *, parts=None, **kw):
+    parts = parts if parts is not None else ext_parts()
+    return run(load_design(write_case(tmp_path, ext_design(topology, rectifier, **kw), parts)))
+
+
+def lossless_ps(tmp_path, rectifier, dead_time=None, l_out="1 H", sync=False):
+    parts = ext_parts(lossless=True, l_m="1 H", c_in="1 F", l_out=l_out, l_leak="1 uH")
+    return case(tmp_path, "full-bridge", rectifier, parts=parts, modulation="phase-shift",
+                dead_time=dead_time, sync=sync)
+
+
+def sabate_duty(ev):
+    """Phase overlap D = D_eff + Δt·fs with Δt = 2·n·I_o·L_lk/V_in [S] [1]."""
+    c = ev.corners
+    n = ev.stage.transformer.n_s / ev.stage.transformer.n_p
+    vin, io, fs = c["input_voltage"], c["output_current"], c["switching_frequency"]
+    dt = L_LK * 2 * n * io / vin
+    return c["output_voltage"] / (2 * n * vin) + dt * fs, dt

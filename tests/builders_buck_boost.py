@@ -5,7 +5,9 @@ Test fixtures, not a parts library: values chosen to make a relation easy to che
 
 from __future__ import annotations
 
-from builders import part
+from builders import part, write_case
+from stresscheck.design import load_design
+from stresscheck.engine import run
 
 LOSSLESS = {"r_ds_on": "1e-9 ohm", "v_sd": "0 V", "r_sd": "0 ohm", "v_f0": "0 V",
             "r_d": "0 ohm", "dcr": "0 ohm", "esr": "0 ohm"}
@@ -78,3 +80,51 @@ def cell_design(topology="buck", *, sync=False, vin=None, vo=None, io=None, fs="
     if ilim:
         doc["operating"]["current_limit"] = ilim
     return doc
+
+
+# --- shared cases of the buck and boost test modules ---------------------------------------
+
+REL = 1e-6
+BUCK_LOADS = {"min": "0.2 A", "max": "5 A"}  # the light load enters DCM (diode)
+BOOST_LOADS = {"min": "0.05 A", "max": "2 A"}
+
+
+def evaluate(tmp_path, topology, *, sync=False, lossless=True, parts=None, **design):
+    design.setdefault("io", BUCK_LOADS if topology == "buck" else BOOST_LOADS)
+    parts = parts or cell_parts(lossless=lossless, c_in="1 F", c_out="1 F")
+    path = write_case(tmp_path, cell_design(topology, sync=sync, **design), parts)
+    return run(load_design(path))
+
+
+def values(ev, ref, quantity):
+    (s,) = [s for s in ev.stresses if s.ref == ref and s.quantity == quantity]
+    return s.values
+
+
+def columns(ev):
+    c = ev.corners
+    return (c["input_voltage"], c["output_voltage"], c["output_current"],
+            c["switching_frequency"], ev.stage.inductors[0].l)
+
+
+def k_factor(ev):
+    """K = 2L/(R·Ts) of every corner (E&M §5.1)."""
+    vin, vo, io, fs, l = columns(ev)
+    return 2 * l * fs * io / vo
+
+
+
+V_BODY = 0.85 * 1.0  # [V] body-diode v_f0 of the dead-time tests (engine: 0.85·v_sd)
+T_DEAD = 100e-9  # [s]
+
+
+def dead_time_parts(**kw):
+    """Lossless, except for the body diodes: v_sd = 1 V, r_sd = 0."""
+    parts = cell_parts(lossless=True, c_in="1 F", c_out="1 F", **kw)
+    parts["t-fet"]["electrical"].update(v_sd="1 V", r_sd="0 ohm")
+    return parts
+
+
+
+def write(tmp_path, topology, **design):
+    return write_case(tmp_path, cell_design(topology, **design), cell_parts())
