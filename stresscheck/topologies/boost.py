@@ -50,10 +50,7 @@ def check_envelope(design) -> None:
     duty ratio D = 1 − V_in/V_o > 0 at every corner (Erickson & Maksimović, 2nd ed.,
     §2.3 — from memory), so the lowest output must exceed the highest input [V].
 
-    Parameters
-    ----------
-    design : Design
-        The loaded design (``input_voltage``, ``output_voltage`` [V], ``max_duty`` [1]).
+    Parameters: ``Topology.check_envelope`` (:mod:`.base`).
     """
     v_in, vo = design.input_voltage, design.output_voltage
     if vo.min <= v_in.max:
@@ -66,15 +63,7 @@ def layout(design) -> Layout:
     """Roles of a boost design; refuses the options it does not take and a surge that
     reaches the output voltage.
 
-    Parameters
-    ----------
-    design : Design
-        The loaded design.
-
-    Returns
-    -------
-    Layout
-        Roles, their counts and the part kinds modelled in each.
+    Parameters and returns: ``Topology.layout`` (:mod:`.base`).
     """
     check_options(design, "boost")  # output above input: check_envelope
     path = design.path
@@ -97,17 +86,8 @@ def duty_limit(design, fs):
     """Largest duty ratio of the switch [1]: as the buck's, with the rectifier as the
     passive (or synchronous) device.
 
-    Parameters
-    ----------
-    design : Design
-        The loaded design.
-    fs : numpy.ndarray
-        Switching frequency of each switch per corner, (N,) [Hz].
-
-    Returns
-    -------
-    numpy.ndarray
-        Largest duty ratio per corner, (N,) [1].
+    Parameters and returns: ``Topology.duty_limit`` (:mod:`.base`); ``fs`` [Hz],
+    the limit [1], (N,) each.
     """
     return buck.duty_limit(design, fs, "rectifier")
 
@@ -119,16 +99,7 @@ def duty_limit_reason(design) -> str:
 def evaluate(st: Stage) -> StageResult:
     """Boost, every corner, by the shared switching cell (:mod:`.switching_cell`).
 
-    Parameters
-    ----------
-    st : Stage
-        Per-corner electrical parameters [SI units].
-
-    Returns
-    -------
-    StageResult
-        Waveforms [A] on a shared segment grid [s], peak blocking voltages [V],
-        winding loss [W], peak flux density [T] and the corners outside the model.
+    Parameters and returns: ``Topology.evaluate`` (:mod:`.base`).
     """
     c = cell.cell_from_stage(st, "boost", "rectifier")
     return cell.stage_result(c, cell.solve(c), "rectifier")

@@ -18,15 +18,7 @@ from .bridge_rectifier import GROUPS
 def layout(design) -> Layout:
     """Roles of a bridge-family design; InputError for combinations not modelled.
 
-    Parameters
-    ----------
-    design : Design
-        The loaded design.
-
-    Returns
-    -------
-    Layout
-        Roles, their counts and the part kinds modelled in each.
+    Parameters and returns: ``Topology.layout`` (:mod:`.base`).
     """
     path, top, rect = design.path, design.topology, design.rectifier
     if rect is None:
@@ -83,10 +75,7 @@ def check_envelope(design) -> None:
     """Refuse a controller limit ``max_duty`` above 50 %: each switch of a bridge-family
     converter conducts at most half a period, so such a limit cannot apply.
 
-    Parameters
-    ----------
-    design : Design
-        The loaded design (``input_voltage``, ``output_voltage`` [V], ``max_duty`` [1]).
+    Parameters: ``Topology.check_envelope`` (:mod:`.base`).
     """
     if design.max_duty is not None and design.max_duty > 0.5:
         top = design.topology
@@ -100,17 +89,8 @@ def duty_limit(design, fs):
     """Each switch conducts at most half a period less the dead time [1]; phase shift:
     the leading leg switches at least one dead time before the lagging leg.
 
-    Parameters
-    ----------
-    design : Design
-        The loaded design.
-    fs : numpy.ndarray
-        Switching frequency of each switch per corner, (N,) [Hz].
-
-    Returns
-    -------
-    numpy.ndarray
-        Largest duty ratio per corner, (N,) [1].
+    Parameters and returns: ``Topology.duty_limit`` (:mod:`.base`); ``fs`` [Hz],
+    the limit [1], (N,) each.
     """
     return 0.5 - design.dead_time * fs
 
@@ -127,16 +107,7 @@ def duty_limit_reason(design) -> str:
 def evaluate(st: Stage) -> StageResult:
     """Periodic steady state of every corner by the stage's modulation's model.
 
-    Parameters
-    ----------
-    st : Stage
-        Per-corner electrical parameters [SI units].
-
-    Returns
-    -------
-    StageResult
-        Waveforms [A] on a shared segment grid [s], peak blocking voltages [V],
-        winding loss [W], peak flux density [T] and the corners outside the model.
+    Parameters and returns: ``Topology.evaluate`` (:mod:`.base`).
     """
     if st.modulation == "phase-shift":
         return bridge_phase_shift.evaluate(st)

@@ -266,16 +266,7 @@ def evaluate(st: Stage) -> StageResult:
     """Phase-shifted full bridge, every corner: the bus ripple around the steady
     state of the intervals (module docstring).
 
-    Parameters
-    ----------
-    st : Stage
-        Per-corner electrical parameters [SI units].
-
-    Returns
-    -------
-    StageResult
-        Waveforms [A] on a shared segment grid [s], peak blocking voltages [V],
-        winding loss [W], peak flux density [T] and the corners outside the model.
+    Parameters and returns: ``Topology.evaluate`` (:mod:`.base`).
     """
     p = iv.Params(st)
     n, io = p.n, st.io

@@ -163,16 +163,7 @@ def inductor_wave(grid: Grid, u, inductance, i_mean):
 def evaluate(st: Stage) -> StageResult:
     """PWM model of every corner (module docstring).
 
-    Parameters
-    ----------
-    st : Stage
-        Per-corner electrical parameters [SI units].
-
-    Returns
-    -------
-    StageResult
-        Waveforms [A] on a shared segment grid [s], peak blocking voltages [V],
-        winding loss [W], peak flux density [T] and the corners outside the model.
+    Parameters and returns: ``Topology.evaluate`` (:mod:`.base`).
     """
     top, rect = st.topology, st.rectifier
     doubler = rect == "current-doubler"

@@ -51,15 +51,7 @@ DIODE_MAX_DUTY = 0.95
 def layout(design) -> Layout:
     """Roles of a buck design; refuses the options it does not take.
 
-    Parameters
-    ----------
-    design : Design
-        The loaded design.
-
-    Returns
-    -------
-    Layout
-        Roles, their counts and the part kinds modelled in each.
+    Parameters and returns: ``Topology.layout`` (:mod:`.base`).
     """
     check_options(design, "buck")  # output below input: check_envelope
     return Layout("buck", None, {
@@ -76,10 +68,7 @@ def check_envelope(design) -> None:
     D = V_o/V_in < 1 at every corner (Erickson & Maksimović, 2nd ed., §2.2 —
     from memory), so the highest output must stay below the lowest input [V].
 
-    Parameters
-    ----------
-    design : Design
-        The loaded design (``input_voltage``, ``output_voltage`` [V], ``max_duty`` [1]).
+    Parameters: ``Topology.check_envelope`` (:mod:`.base`).
     """
     v_in, vo = design.input_voltage, design.output_voltage
     if vo.max >= v_in.min:
@@ -113,20 +102,9 @@ def duty_limit(design, fs, passive_role: str = "freewheel"):
     transition), D <= 1 − 2·t_d·fs. Diode: the controller's ``max_duty`` if given, else
     DIODE_MAX_DUTY; the dead time does not apply (one controlled switch).
 
-    Parameters
-    ----------
-    design : Design
-        The loaded design.
-    fs : numpy.ndarray
-        Switching frequency of each switch per corner, (N,) [Hz].
-    passive_role : str
-        Role of the passive (or synchronous) device: "freewheel" (buck) or
-        "rectifier" (boost).
-
-    Returns
-    -------
-    numpy.ndarray
-        Largest duty ratio per corner, (N,) [1].
+    Parameters and returns: ``Topology.duty_limit`` (:mod:`.base`), ``fs`` [Hz] and the
+    limit [1], (N,) each; ``passive_role`` is the role of the passive (or synchronous)
+    device: "freewheel" (buck) or "rectifier" (boost).
     """
     if synchronous(design, passive_role):
         return 1.0 - 2 * design.dead_time * np.asarray(fs, dtype=float)
@@ -147,16 +125,7 @@ def duty_limit_reason(design, passive_role: str = "freewheel") -> str:
 def evaluate(st: Stage) -> StageResult:
     """Buck, every corner, by the shared switching cell (:mod:`.switching_cell`).
 
-    Parameters
-    ----------
-    st : Stage
-        Per-corner electrical parameters [SI units].
-
-    Returns
-    -------
-    StageResult
-        Waveforms [A] on a shared segment grid [s], peak blocking voltages [V],
-        winding loss [W], peak flux density [T] and the corners outside the model.
+    Parameters and returns: ``Topology.evaluate`` (:mod:`.base`).
     """
     c = cell.cell_from_stage(st, "buck", "freewheel")
     return cell.stage_result(c, cell.solve(c), "freewheel")

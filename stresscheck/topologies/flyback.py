@@ -174,25 +174,14 @@ def check_envelope(design) -> None:
     ratio that cannot reach the output at some corner is refused by the engine with
     that corner named (``RegulationError``).
 
-    Parameters
-    ----------
-    design : Design
-        The loaded design (``input_voltage``, ``output_voltage`` [V], ``max_duty`` [1]).
+    Parameters: ``Topology.check_envelope`` (:mod:`.base`).
     """
 
 
 def layout(design) -> Layout:
     """Roles of a flyback design; InputError for options not modelled.
 
-    Parameters
-    ----------
-    design : Design
-        The loaded design.
-
-    Returns
-    -------
-    Layout
-        Roles, their counts and the part kinds modelled in each.
+    Parameters and returns: ``Topology.layout`` (:mod:`.base`).
     """
     path = design.path
     if design.rectifier is not None:
@@ -227,17 +216,8 @@ def duty_limit(design, fs):
     else :data:`DEFAULT_MAX_DUTY` (see the module notes); a synchronous rectifier also
     needs its two dead times in each period, D <= 1 − 2·t_d·fs.
 
-    Parameters
-    ----------
-    design : Design
-        The loaded design.
-    fs : numpy.ndarray
-        Switching frequency of each switch per corner, (N,) [Hz].
-
-    Returns
-    -------
-    numpy.ndarray
-        Largest duty ratio per corner, (N,) [1].
+    Parameters and returns: ``Topology.duty_limit`` (:mod:`.base`); ``fs`` [Hz],
+    the limit [1], (N,) each.
     """
     limit = 1.0 if design.max_duty is not None else DEFAULT_MAX_DUTY
     limit = np.full(np.shape(fs), limit)
@@ -378,16 +358,7 @@ def _dcm(p: _Params):
 def evaluate(st: Stage) -> StageResult:
     """Flyback, every corner, CCM or DCM (module docstring).
 
-    Parameters
-    ----------
-    st : Stage
-        Per-corner electrical parameters [SI units].
-
-    Returns
-    -------
-    StageResult
-        Waveforms [A] on a shared segment grid [s], peak blocking voltages [V],
-        winding loss [W], peak flux density [T] and the corners outside the model.
+    Parameters and returns: ``Topology.evaluate`` (:mod:`.base`).
     """
     xf = st.transformer
     (rect,) = st.group("rectifier")

@@ -78,25 +78,14 @@ def check_envelope(design) -> None:
     down; a ratio that cannot reach the output at some corner is refused by the engine
     with that corner named (``RegulationError``).
 
-    Parameters
-    ----------
-    design : Design
-        The loaded design (``input_voltage``, ``output_voltage`` [V], ``max_duty`` [1]).
+    Parameters: ``Topology.check_envelope`` (:mod:`.base`).
     """
 
 
 def layout(design) -> Layout:
     """Roles of a forward-family design; InputError for options not modelled.
 
-    Parameters
-    ----------
-    design : Design
-        The loaded design.
-
-    Returns
-    -------
-    Layout
-        Roles, their counts and the part kinds modelled in each.
+    Parameters and returns: ``Topology.layout`` (:mod:`.base`).
     """
     path, top = design.path, design.topology
     two = top == TWO_SWITCH
@@ -147,17 +136,8 @@ def duty_limit(design, fs):
     reset at V_in, D_max = 1/2. The reset with drops is checked at every corner in
     ``evaluate``.
 
-    Parameters
-    ----------
-    design : Design
-        The loaded design.
-    fs : numpy.ndarray
-        Switching frequency of each switch per corner, (N,) [Hz].
-
-    Returns
-    -------
-    numpy.ndarray
-        Largest duty ratio per corner, (N,) [1].
+    Parameters and returns: ``Topology.duty_limit`` (:mod:`.base`); ``fs`` [Hz],
+    the limit [1], (N,) each.
     """
     fs = np.asarray(fs, dtype=float)
     if design.topology == TWO_SWITCH:
@@ -190,16 +170,7 @@ def evaluate(st: Stage) -> StageResult:
     """Periodic steady state of every corner: the synchronous model where a MOSFET takes
     the rectifier or the freewheel position, else the diode model.
 
-    Parameters
-    ----------
-    st : Stage
-        Per-corner electrical parameters [SI units].
-
-    Returns
-    -------
-    StageResult
-        Waveforms [A] on a shared segment grid [s], peak blocking voltages [V],
-        winding loss [W], peak flux density [T] and the corners outside the model.
+    Parameters and returns: ``Topology.evaluate`` (:mod:`.base`).
     """
     if "mosfet" in (st.devices[("rectifier", 0)].kind, st.devices[("freewheel", 0)].kind):
         return forward_sync.evaluate(st)

@@ -32,7 +32,10 @@ PASS_RTOL = 1e-12
 
 
 def evaluate(st: Stage) -> StageResult:
-    """Diode rectifiers, CCM or DCM per corner (module docstring)."""
+    """Diode rectifiers, CCM or DCM per corner (module docstring).
+
+    Parameters and returns: ``Topology.evaluate`` (:mod:`.base`).
+    """
     pr = primary(st)
     two, n, a_r, r_prim, v0_r, r_rr = pr.two, pr.n, pr.a_r, pr.r_prim, pr.v0_r, pr.r_rr
     xf, ind = st.transformer, st.inductors[0]

@@ -57,14 +57,17 @@ PASS_RTOL = 1e-12
 def evaluate(st: Stage) -> StageResult:
     """Synchronous rectifiers: a MOSFET in the rectifier and/or the freewheel position
     (module docstring). Continuous conduction of the output inductor throughout (forced
-    by a freewheel MOSFET)."""
+    by a freewheel MOSFET).
+
+    Parameters and returns: ``Topology.evaluate`` (:mod:`.base`).
+    """
     pr = primary(st)
+    q1, q2 = st.devices[("rectifier", 0)], st.devices[("freewheel", 0)]
     two, n, a_r, r_prim, v0_r, r_rr = pr.two, pr.n, pr.a_r, pr.r_prim, pr.v0_r, pr.r_rr
     xf, ind = st.transformer, st.inductors[0]
     ts = 1.0 / st.fs
     v_in, vo, io = st.v_in, st.vo, st.io
     lm, l_out = xf.l_m, ind.l
-    q1, q2 = st.devices[("rectifier", 0)], st.devices[("freewheel", 0)]
     sync_r, sync_f = q1.kind == "mosfet", q2.kind == "mosfet"
     z0 = np.zeros_like(v_in)
     # forward position in the on-time: channel (0 + R_on·i) or diode (v_f0 + r_d·i)
