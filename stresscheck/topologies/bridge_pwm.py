@@ -151,7 +151,24 @@ def _durations(d, ts, t_d):
 
 
 def inductor_wave(grid: Grid, u, inductance, i_mean):
-    """Inductor current with segment voltages ``u`` (N, S) [V], mean ``i_mean`` [A]."""
+    """Inductor current from its segment voltages, offset to its mean.
+
+    Parameters
+    ----------
+    grid : Grid
+        Segment durations (N, S) [s].
+    u : numpy.ndarray
+        Inductor voltage per segment (N, S) [V].
+    inductance : numpy.ndarray
+        (N,) [H].
+    i_mean : numpy.ndarray
+        Mean current over the period (N,) [A].
+
+    Returns
+    -------
+    PWL
+        The inductor current [A]: slopes u/L, piecewise linear.
+    """
     inc = u * grid.dt / inductance[:, None]
     start = np.concatenate([np.zeros((u.shape[0], 1)), np.cumsum(inc, axis=1)[:, :-1]], axis=1)
     end = start + inc

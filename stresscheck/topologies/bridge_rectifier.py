@@ -39,6 +39,7 @@ class RectifierGroup:
 
 
 def rectifier_groups(st: Stage) -> tuple[RectifierGroup, RectifierGroup]:
+    """Groups A and B of ``st``'s rectifier positions (:data:`GROUPS`), each averaged."""
     rects = st.group("rectifier")
     a, b = GROUPS[st.rectifier]
     return (RectifierGroup([rects[k] for k in a]), RectifierGroup([rects[k] for k in b]))

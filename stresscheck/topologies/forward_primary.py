@@ -134,6 +134,34 @@ def magnetics(xf, two, i_sw, i_mr, i_fwd, i_rst, e_on_s, grid, on_mask, t_on, lm
     Flux rises from −L_m·δ by the on-time's volt-seconds λ = ē_on·t_on (Faraday's law,
     unipolar swing); B_peak = max(λ − L_m·δ, L_m·δ)/(N_p·A_e). The core must reset
     within the off-time: t_r <= t_off, else the corner is refused.
+
+    Parameters
+    ----------
+    xf : Magnetics
+        The transformer: turns, winding resistances [ohm], core area [m^2].
+    two : bool
+        Two-switch forward (clamp diodes, no reset winding).
+    i_sw, i_mr, i_fwd, i_rst : PWL
+        Switch, reset-interval magnetizing, forward-rectifier and reset-winding (or
+        clamp) currents [A].
+    e_on_s : numpy.ndarray
+        Primary emf sampled (N, S, k) [V].
+    grid : Grid
+        Segment durations [s].
+    on_mask : numpy.ndarray
+        On-time segments (S,).
+    t_on, t_r, t_off : numpy.ndarray
+        On-time, reset time and off-time (N,) [s].
+    lm : numpy.ndarray
+        Magnetizing inductance (N,) [H].
+    delta : numpy.ndarray
+        Magnetizing current below zero at the start of the on-time (N,) [A].
+
+    Returns
+    -------
+    tuple
+        Winding loss (N,) [W]; peak flux density (N,) [T] or None without a core area;
+        and the (mask, reason) of the corners where the core does not reset.
     """
     if two:  # the primary carries the magnetizing current through the clamps in the reset
         p_wind = xf.r_p * (i_sw + i_mr).rms() ** 2 + xf.r_s * i_fwd.rms() ** 2
