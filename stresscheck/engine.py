@@ -20,7 +20,6 @@ from .corners import CornerSet, build_corners
 from .devices import DeviceModel, StageParts, Temperature, build_devices
 from .errors import RegulationError
 from .evaluation import Evaluation, Stress
-from .spice.circuit import CapacitorModel, Circuit, DiodeModel, SwitchModel
 from .topologies import (Stage, StageResult, duty_limit_reason, evaluate,
                          topology_duty_limit)
 
@@ -247,44 +246,3 @@ def derive(devices: list[DeviceModel], corners: CornerSet, result: StageResult,
                                        np.asarray(row.values, dtype=float),
                                        every if voltage else steady, row.reason))
     return stresses, losses_by_ref, p_loss
-
-
-def circuit_at(ev: Evaluation, i: int) -> Circuit:
-    """The circuit of corner ``i`` with the engine's solved parameters, for ngspice."""
-    st, res = ev.stage, ev.result
-
-    def diode(dev):
-        return DiodeModel(float(dev.v_f0[i]), float(dev.r_d[i]))
-
-    def semi(dev):
-        if dev.kind == "mosfet":
-            return SwitchModel(float(dev.r_on[i]), diode(dev))
-        return diode(dev)
-
-    xf = st.transformer
-    out = st.capacitors[("output-capacitor", 0)]
-    c = Circuit(topology=st.topology, rectifier=st.rectifier, v_in=float(st.v_in[i]),
-                v_out=float(st.vo[i]), i_out=float(st.io[i]), f_sw=float(st.fs[i]),
-                duty=float(res.duty[i]), dead_time=st.dead_time,
-                switches=[semi(d) for d in st.group("switch")],
-                rectifiers=[semi(d) for d in st.group("rectifier")],
-                c_out=CapacitorModel(float(out.c[i]), out.esr),
-                i_l_start=float(res.i_l_start[i]), i_m_start=float(res.i_m_start[i]),
-                modulation=st.modulation,
-                freewheels=[semi(d) for d in st.group("freewheel")],
-                resets=[semi(d) for d in st.group("reset")],
-                regime=str(res.regime[i]) if res.regime is not None else "CCM")
-    if st.inductors:
-        c.l_out, c.dcr_out = float(st.inductors[0].l[i]), st.inductors[0].dcr
-    if len(st.inductors) > 1:
-        c.l_out_2, c.dcr_out_2 = float(st.inductors[1].l[i]), st.inductors[1].dcr
-    if xf is not None:
-        c.n_p, c.n_s, c.l_m = xf.n_p, xf.n_s, float(xf.l_m[i])
-        c.r_primary, c.r_secondary, c.core_area = xf.r_p, xf.r_s, xf.core_area
-        c.n_r, c.r_reset, c.l_leak = xf.n_r, xf.r_r, xf.l_leak
-    if ("input-capacitor", 0) in st.capacitors:
-        cin = st.capacitors[("input-capacitor", 0)]
-        c.c_in = CapacitorModel(float(cin.c[i]), cin.esr)
-    c.c_split = [CapacitorModel(float(b.c[i]), b.esr)
-                 for (role, _), b in sorted(st.capacitors.items()) if role == "split-capacitor"]
-    return c

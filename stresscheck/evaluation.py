@@ -46,8 +46,3 @@ class Evaluation:
     notes: list[dict] = field(default_factory=list)
     # loss terms of one device of each ref: ref -> term -> (N,) [W]
     losses: dict[str, dict[str, np.ndarray]] = field(default_factory=dict)
-
-    def circuit_at(self, i: int):
-        """The circuit of corner ``i`` for ngspice (see ``engine.circuit_at``)."""
-        from .engine import circuit_at
-        return circuit_at(self, i)

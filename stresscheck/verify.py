@@ -91,6 +91,7 @@ def verify_design(design_path, parts, policy_name, *, keep: Path | None = None) 
     from .engine import run
     from .errors import SimulationError
     from .policy import load_policy
+    from .spice.circuit import circuit_at
     from .spice.run import find_ngspice
     from .spice.simulate import simulate
 
@@ -109,7 +110,7 @@ def verify_design(design_path, parts, policy_name, *, keep: Path | None = None) 
         target = keep / f"{cid}.cir" if keep else None
         if keep:
             keep.mkdir(parents=True, exist_ok=True)
-        sim = simulate(evaluation.circuit_at(i), keep_netlist=target)
+        sim = simulate(circuit_at(evaluation, i), keep_netlist=target)
         print(f"  duty computed {evaluation.result.duty[i]:.4f}, simulated {sim.duty:.4f}")
         print(f"  {'ref':6s} {'quantity':15s} {'computed':>12s} {'simulated':>12s} "
               f"{'diff':>8s} {'tol':>5s}")

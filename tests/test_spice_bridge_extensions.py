@@ -33,6 +33,7 @@ from spice_support import (assert_reference_reproduced, json_positions, keep_fol
                            ngspice, outside_tolerance)  # noqa: F401  (ngspice: autouse)
 from stresscheck.design import load_design
 from stresscheck.engine import run
+from stresscheck.spice.circuit import circuit_at
 from stresscheck.verify import TOL_AVERAGE, TOL_PEAK, compare_at
 
 # case -> (topology, rectifier, design options, part options, load): 48 V nominal bus
@@ -82,7 +83,7 @@ def test_stresses_match_ngspice(tmp_path, name, line):
     i = corner_index(ev, line, load)
     folder = keep_folder(tmp_path)
     stem = f"{name}-{line}"
-    sim = simulate(ev.circuit_at(i), keep_netlist=folder / f"{stem}.cir")
+    sim = simulate(circuit_at(ev, i), keep_netlist=folder / f"{stem}.cir")
     comparisons = compare_at(ev, i, sim)
     compared = {c.quantity for c in comparisons}
     diode = not opts.get("sync")

@@ -20,6 +20,7 @@ from builders import bridge_design, bridge_parts, write_case
 from spice_support import ngspice, outside_tolerance  # noqa: F401  (ngspice: autouse)
 from stresscheck.design import load_design
 from stresscheck.engine import run
+from stresscheck.spice.circuit import circuit_at
 from stresscheck.verify import TOL_AVERAGE, TOL_PEAK, compare_at
 
 CASES = [("full-bridge", "center-tap"), ("full-bridge", "full-bridge"),
@@ -45,7 +46,7 @@ def test_stresses_match_ngspice(tmp_path, topology, rectifier, line):
     ev = run(load_design(write_case(tmp_path, bridge_design(topology, rectifier), parts)))
     vin = ev.corners["input_voltage"].min() if line == "low" else ev.corners["input_voltage"].max()
     i = corner_index(ev, vin)
-    sim = simulate(ev.circuit_at(i))
+    sim = simulate(circuit_at(ev, i))
     comparisons = compare_at(ev, i, sim)
     compared = {c.quantity for c in comparisons}
     # every simulated quantity class is compared (nothing silently skipped)

@@ -31,6 +31,7 @@ from spice_support import (assert_reference_reproduced, keep_folder, kept_result
                            ngspice, report_worst)  # noqa: F401  (ngspice: autouse)
 from stresscheck.design import load_design
 from stresscheck.engine import run
+from stresscheck.spice.circuit import circuit_at
 from stresscheck.verify import TOL_AVERAGE, TOL_PEAK, compare_at
 
 EXAMPLES = Path(__file__).parent.parent / "examples"
@@ -90,7 +91,7 @@ def simulated(tmp_path_factory):
             ev = run(load_design(write_case(folder, *design_and_parts(*ALL_CASES[case]))))
             assert ev.corners.size == 1
             target = keep_folder(folder) / f"{case}.cir"
-            c = ev.circuit_at(0)
+            c = circuit_at(ev, 0)
             _RESULTS[case] = (ev, c, simulate(c, keep_netlist=target), target.parent)
         return _RESULTS[case]
     return get
@@ -124,7 +125,7 @@ def losses(ev, c, r) -> float:
     near the simulated v_peak while the rectifier conducts and at V_in in the idle
     interval (fractions of the period from the engine's grid). At 375 V that is about
     1.5e-3 of the power, more than the balance allows, so it must be counted."""
-    from stresscheck.spice.netlist import R_OFF
+    from stresscheck.spice.elements import R_OFF
     from stresscheck.topologies.flyback import MASK_IDLE, MASK_OFF
     pos, dg = r.positions, r.diagnostics
     share = ev.result.grid.fraction()[0]
@@ -231,7 +232,7 @@ def sync_losses(ev, c, r) -> float:
     r_d·I_rms², capacitor ESRs, windings, and the off resistance R_OFF of each switch
     while it blocks (the primary switch over the off-time near its v_peak, the rectifier
     over the on-time near its v_peak)."""
-    from stresscheck.spice.netlist import R_OFF
+    from stresscheck.spice.elements import R_OFF
     from stresscheck.topologies.flyback import MASK_OFF, MASK_ON
     pos, dg = r.positions, r.diagnostics
     share = ev.result.grid.fraction()[0]
@@ -280,7 +281,7 @@ def test_sync_without_dead_time_is_not_simulated(simulated):
     builder refuses it rather than letting ngspice's time step collapse."""
     from dataclasses import replace
 
-    from stresscheck.spice.netlist_flyback import check_supported
+    from stresscheck.spice.deck_flyback import check_supported
     _, c, _, _ = simulated("flyback-sync-12v-lowline")
     with pytest.raises(NotImplementedError, match="without dead time"):
         check_supported(replace(c, dead_time=0.0))

@@ -27,6 +27,7 @@ from spice_support import (assert_reference_reproduced, keep_folder, kept_result
                            ngspice, report_worst)  # noqa: F401  (ngspice: autouse)
 from stresscheck.design import load_design
 from stresscheck.engine import run
+from stresscheck.spice.circuit import circuit_at
 from stresscheck.spice.circuit import SwitchModel
 from stresscheck.verify import TOL_AVERAGE, TOL_PEAK, compare_at
 
@@ -97,7 +98,7 @@ def simulated(tmp_path_factory):
             vin = ev.corners["input_voltage"]
             i = int(np.argmin(vin) if line == "low" else np.argmax(vin))
             target = keep_folder(folder) / f"{case}.cir"
-            c = ev.circuit_at(i)
+            c = circuit_at(ev, i)
             _RESULTS[case] = (ev, i, c, simulate(c, keep_netlist=target), target.parent)
         return _RESULTS[case]
     return get

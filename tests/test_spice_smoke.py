@@ -200,7 +200,7 @@ def test_diode_model_dc_sweep():
     # The straight-line model v = v_f0 + r_d·I (offset source + near-ideal diode + r_d,
     # ngspice notes): the near-ideal diode adds n·V_T·ln(I/I_S), which varies by
     # n·V_T·ln(10) ~ 3 mV per decade; 5 mV over 0.1..4 times the design current.
-    from stresscheck.spice.netlist import I_REF_FRACTION
+    from stresscheck.spice.elements import I_REF_FRACTION
     i_ref = I_REF_FRACTION * I_OUT  # as the converter netlists choose it
     i, v = diode_dc_sweep(RECT, i_ref, 4 * i_ref, n=40)
     sel = i >= 0.1 * i_ref

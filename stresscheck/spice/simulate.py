@@ -9,7 +9,8 @@ accept only when a confirmation run at unchanged duty moves the mean output volt
 the mean inductor current by less than :data:`STEADY_TOL`.
 
 Between the runs of the search, the slow modes (output L-C ringing, input filter, flux
-bias) are shifted to their averaged equilibrium (:func:`_slow_mode_shift`), so that
+bias) are shifted to their averaged equilibrium (the ``slow_mode_shift`` of the
+topology's deck, :mod:`stresscheck.spice.decks`), so that
 each run measures nearly the steady state of its duty; the confirmation run continues
 the previous run's filter state unchanged. The stresses are measured in the accepted
 confirmation run.
@@ -29,8 +30,8 @@ import numpy as np
 from ..errors import SimulationError
 from ..fsio import write_text_atomic
 from .circuit import Circuit, DiodeModel
-from .netlist import (BUILDERS, DUTY_LIMITS, SLOW_MODE_SHIFTS, T_EDGE, TOPOLOGIES, Layout,
-                      analytic_ic, check_supported, diode_sweep_netlist)
+from .decks import build_deck, deck_for
+from .elements import Layout, analytic_ic, diode_sweep_netlist
 from .run import run_netlist
 
 N_MEASURE_PERIODS = 20  # switching periods in the measurement window at the end of a run
@@ -70,7 +71,7 @@ class SimResult:
     diagnostics: dict[str, float] = field(default_factory=dict)
 
 
-class _Window:
+class Window:
     """Samples in [t_a, t_b] with the first instant interpolated; trapezoidal integrals."""
 
     def __init__(self, vec: dict[str, np.ndarray], t_a: float):
@@ -101,71 +102,6 @@ class _Window:
         return float((np.interp(t1, self.t, cum) - np.interp(t0, self.t, cum)) / (t1 - t0))
 
 
-def _slow_mode_shift(c: Circuit, lay: Layout, w: _Window,
-                     duty: float) -> tuple[dict[str, float], dict[str, float]]:
-    """State shifts that remove the slow modes at the end of a run [A, V].
-
-    Returns the shift of the filters (output L-C, input choke and capacitors) and the
-    shift of the flux bias, both by netlist IC key. Both are added to a run's final
-    state before the next run of the duty search; before a confirmation run only the
-    flux shift, which leaves mean v_out and i_L alone. Offsets at the end of the run
-    are the last period's means extrapolated half a period with the period before.
-
-    - Output filter: with a light load the L-C filter rings for hundreds of periods
-      (Q = R·sqrt(C/L) reaches 10 or more). Over whole periods its averaged equilibrium
-      is i_L = <v_rect>/(R_load + DCR), v_C = R_load·i_L with the rectified voltage
-      <v_rect> of the last period; the drops' change with current is left to the
-      next run.
-    - Flux bias, full-bridge and push-pull: zero mean magnetizing current, by the
-      half-wave symmetry of the circuit (identical positions); an asymmetric circuit
-      would settle, over milliseconds, at a bias the engine does not model either.
-    - Flux bias, half-bridge: the split capacitors block DC, so the mean primary
-      current is zero, and the midpoint sits where the primary's volt-seconds
-      balance. A symmetric circuit has zero mean magnetizing current and the
-      midpoint at half the bus. Otherwise (less precise, so more runs): a bias di
-      of the magnetizing current flows in the primary only while a switch conducts,
-      adding 2·D·di to the mean primary current; an offset dv of the midpoint changes
-      the magnetizing current by -2·dv·D·Ts/L_m per period.
-    """
-    ts = 1.0 / c.f_sw
-    t1 = w.t[-1]
-
-    def ends(x: np.ndarray) -> tuple[float, float]:
-        last = w.mean_between(x, t1 - ts, t1)
-        before = w.mean_between(x, t1 - 2 * ts, t1 - ts)
-        return 1.5 * last - 0.5 * before, last - before
-
-    # Input filter: the bus settles at v_in, the choke current at the bridge's mean draw.
-    v_bus = w["v(bus)"]
-    cap_sense = lay.caps[("split-capacitor", 0) if c.topology == "half-bridge"
-                         else ("input-capacitor", 0)][0]
-    i_choke = w["i(lch)"]
-    i_bridge = i_choke + (c.v_in - v_bus) / lay.r_damp - w[f"i({cap_sense})"]
-    scale = c.v_in / w.mean_between(v_bus, t1 - ts, t1)  # v_rect follows the bus
-    # Output filter at its averaged equilibrium for that bus voltage.
-    _, _, _, cp, cm = lay.caps[("output-capacitor", 0)]
-    i_l = ends(w["i(lout)"])[0]
-    i_eq = scale * w.mean_between(w["v(rect)"], t1 - ts, t1) / (lay.r_load + c.dcr_out)
-    filters = {"lout": i_eq - i_l,
-               "cout": lay.r_load * i_eq - ends(w[f"v({cp})"] - w[f"v({cm})"])[0],
-               "lch": ends(i_bridge)[0] * i_eq / i_l - ends(i_choke)[0]}
-    dv_bus = c.v_in - ends(v_bus)[0]
-    if c.topology not in TOPOLOGIES:  # forward: the core resets every period, no bias
-        filters["cin"] = dv_bus
-        return filters, {}
-    if c.topology != "half-bridge":
-        filters["cin"] = dv_bus
-        return filters, {"lm": -ends(w["i(lm)"])[0]}
-    filters.update(ctop=dv_bus / 2, cbot=dv_bus / 2)
-    if c.c_split[0] == c.c_split[1] and c.switches[0] == c.switches[1]:
-        di = -ends(w["i(lm)"])[0]
-        dv = ends(w["v(mid)"] - 0.5 * v_bus)[0]
-    else:
-        di = -ends(w["i(vp1)"])[0] / (2 * duty)
-        dv = -lay.l_m * ends(w["i(lm)"])[1] / (2 * duty * ts)
-    return filters, {"lm": di, "ctop": dv, "cbot": -dv}
-
-
 def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float,
             duty: float) -> dict:
     """Stresses and state over the window from ``t_a`` [s] to the end of the data.
@@ -189,10 +125,10 @@ def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float,
         rectifier ``v_reverse_peak``, ``i_avg``, ``i_rms``, ``i_peak``; inductor ``i_peak``,
         ``i_rms``; capacitors ``i_ripple_rms``, ``v_peak``; transformer ``i_m_peak`` and
         ``b_peak`` where ``core_area`` is set) [V, A, T], ``means``, ``final`` (the
-        state at the end, by netlist IC key), ``shift`` and ``flux_shift`` (see
-        :func:`_slow_mode_shift`) and ``diagnostics``.
+        state at the end, by netlist IC key), ``shift`` and ``flux_shift`` and
+        ``v_steady`` (the deck's ``slow_mode_shift``) and ``diagnostics``.
     """
-    w = _Window(vec, t_a)
+    w = Window(vec, t_a)
 
     def v(node: str) -> np.ndarray:
         return w[f"v({node})"] if node != "0" else np.zeros_like(w.t)
@@ -267,23 +203,12 @@ def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float,
         final[name] = float(x[-1])
         e_change += 0.5 * ind * (x[-1] ** 2 - x[0] ** 2)
     diag["p_stored"] = e_change / w.length
-    if c.topology in SLOW_MODE_SHIFTS:  # families without an output L-C (flyback)
-        *shift, v_steady = SLOW_MODE_SHIFTS[c.topology](c, lay, w, duty)
-    else:
-        shift, v_steady = _slow_mode_shift(c, lay, w, duty), means["v_out"]
+    *shift, v_steady = deck_for(c.topology).slow_mode_shift(c, lay, w, duty)
     if c.topology == "half-bridge":
         diag["v_mid_mean"] = w.mean(v("mid"))
     return {"positions": pos, "means": means, "final": final, "diagnostics": diag,
             "p_in": p_in, "p_out": p_out, "shift": shift[0], "flux_shift": shift[1],
             "v_steady": v_steady}
-
-
-def _duty_limit(c: Circuit) -> float:
-    """Largest duty that keeps the two half-cycles apart (dead time, gate edges) [1];
-    other topologies' limits from ``netlist.DUTY_LIMITS``."""
-    if c.topology in DUTY_LIMITS:
-        return DUTY_LIMITS[c.topology](c)
-    return 0.5 - (c.dead_time + 2 * T_EDGE) * c.f_sw
 
 
 def _next_duty(points: list[tuple[float, float]], target: float, d_max: float) -> float:
@@ -306,7 +231,7 @@ def _run(c: Circuit, duty: float, ic: dict, choke: str, workdir: Path,
          periods: int) -> tuple[dict, str]:
     ts = 1.0 / c.f_sw
     t_stop, t_meas = periods * ts, N_MEASURE_PERIODS * ts
-    text, lay = BUILDERS[c.topology](c, duty, t_stop, t_meas, ic, choke)
+    text, lay = build_deck(c, duty, t_stop, t_meas, ic, choke)
     vec = run_netlist(text, workdir)
     return measure(c, lay, vec, t_stop - t_meas, duty), text
 
@@ -332,14 +257,13 @@ def simulate(c: Circuit, *, keep_netlist: Path | None = None) -> SimResult:
         ngspice fails, the duty needed exceeds the limit, or no steady state is
         accepted within :data:`MAX_RUNS` runs.
     NotImplementedError
-        A topology or rectifier outside the bridge family.
+        A topology, rectifier or modulation that no deck builds.
     ValueError
         The circuit lacks positions its topology needs.
     """
-    if c.topology not in BUILDERS:
-        check_supported(c)  # registered builders check their circuit themselves
+    deck = deck_for(c.topology)  # every deck's build checks its circuit
     t0 = time.perf_counter()
-    d_max = _duty_limit(c)
+    d_max = deck.duty_limit(c)
     duty = min(max(c.duty, 1e-3), d_max)
     ic = analytic_ic(c)
     choke, points, ref = "short", [], None

@@ -9,7 +9,7 @@ gated with the primary switch (gate ``g1``); the freewheel MOSFET complementary 
 (gate ``g2``), one ``dead_time`` after the switch turns off until one ``dead_time``
 before it turns on, its body diode carrying the inductor current in between.
 
-Models as in :mod:`stresscheck.spice.netlist` and the project's ngspice notes: ``S``
+Models as in :mod:`stresscheck.spice.elements` and the project's ngspice notes: ``S``
 switches with an antiparallel body diode, straight-line diodes, L with DCR, C with ESR
 and a 0 V sense source, a DC input behind a damped choke, and an ideal transformer from
 controlled sources: one magnetizing inductance ``lm`` across the primary emf (after the
@@ -20,7 +20,7 @@ winding, with its dot at ground and its undotted end on the reset diode's anode 
 diode's cathode on the bus). Leakage inductance is left out, like in the analytic model
 (stresses "before any spike").
 
-Element names are those of :mod:`stresscheck.spice.netlist` (same :class:`Layout`), plus:
+Element names are those of :mod:`stresscheck.spice.elements` (same :class:`Layout`), plus:
 
 ======================  ==========================================================
 ``vf0``                 offset source of the freewheel diode (anode ``0``, cathode
@@ -46,8 +46,8 @@ undotted end is ground.
 from __future__ import annotations
 
 from .circuit import Circuit, SwitchModel
-from . import netlist
-from .netlist import T_EDGE, Layout, _Deck, initial_conditions, switching_period
+from .elements import (T_EDGE, Deck, Layout, NetlistWriter, initial_conditions,
+                       mean_output_voltage, output_filter_shift, switching_period)
 
 TOPOLOGIES = ("forward", "two-switch-forward")
 #: Integration method. In the idle interval the magnetizing inductance sits in series with
@@ -99,12 +99,13 @@ def duty_limit(c: Circuit) -> float:
 
 def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
           ic: dict | None, choke: str) -> tuple[str, Layout]:
-    """Netlist text and its :class:`Layout` (contract of :func:`netlist.build`)."""
+    """Netlist text and its :class:`Layout` (contract of
+    :func:`stresscheck.spice.deck_bridge.build`)."""
     check_supported(c)
     two = c.topology == "two-switch-forward"
     ts = switching_period(c)
     ic = initial_conditions(c, ic)
-    d = _Deck()
+    d = NetlistWriter()
     lay = d.lay
     sr, sf = (isinstance(x[0], SwitchModel) for x in (c.rectifiers, c.freewheels))
     kind = {(False, False): "diode rectifier", (True, False): "synchronous forward rectifier",
@@ -176,5 +177,13 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
     return d.finish(ts, t_stop, t_measure), lay
 
 
-netlist.BUILDERS.update(dict.fromkeys(TOPOLOGIES, build))
-netlist.DUTY_LIMITS.update(dict.fromkeys(TOPOLOGIES, duty_limit))
+
+def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
+    """Contract of :attr:`stresscheck.spice.elements.Deck.slow_mode_shift`: the output and
+    input filter shift (:func:`stresscheck.spice.elements.output_filter_shift`), no flux
+    shift (the core resets every period) and the window's mean output voltage [A, V]."""
+    return output_filter_shift(c, lay, w), {}, mean_output_voltage(w)
+
+
+#: The forward family's deck (single and two-switch, diode or synchronous rectifiers).
+DECK = Deck("forward", build, duty_limit, slow_mode_shift)

@@ -1,11 +1,11 @@
 """ngspice transient netlists of the bridge-family extensions: phase-shift modulation
 (full bridge), the current-doubler rectifier and synchronous rectifiers.
 
-Models as in :mod:`stresscheck.spice.netlist` and the project's ngspice notes (``S``
+Models as in :mod:`stresscheck.spice.deck_bridge` and the project's ngspice notes (``S``
 switches with an antiparallel body diode, ideal transformer from controlled sources plus
 one magnetizing inductance, straight-line diodes, L with DCR, C with ESR and a sense
 source, DC input behind a damped choke), with the same element names and
-:class:`~stresscheck.spice.netlist.Layout`, plus:
+:class:`~stresscheck.spice.elements.Layout`, plus:
 
 ======================  ==========================================================
 ``llk``                 phase shift: the leakage (and series resonant) inductance,
@@ -39,18 +39,17 @@ source is the diode's anode, its drain the cathode.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
-from . import netlist
+from .bridge_parts import (BRIDGE_LEGS, TOPOLOGIES, bridge_secondaries, bridge_switches,
+                           bridge_transformer, flux_bias_shift)
 from .circuit import Circuit, DiodeModel, SwitchModel
-from .netlist import (BRIDGE_LEGS, I_REF_FRACTION, Layout, _Deck, analytic_ic,
-                      bridge_secondaries, bridge_switches, bridge_transformer,
-                      initial_conditions, switching_period)
+from .elements import (I_REF_FRACTION, Layout, NetlistWriter, analytic_ic, initial_conditions,
+                       mean_output_voltage, output_filter_shift, switching_period)
 
-TOPOLOGIES = netlist.TOPOLOGIES
 RECTIFIERS = ("center-tap", "full-bridge", "current-doubler")
-IC_KEYS = netlist.IC_KEYS + ("lout2", "llk")
-_PLAIN_BUILD = netlist.build  # the bridge family's own builder (plain circuits)
 #: Integration of the phase-shift decks: backward Euler (first-order Gear). At the end of
 #: each commutation a rectifier turns off and the leakage, magnetizing and (reflected)
 #: output inductances form an all-inductor cutset: the trapezoidal rule then rings from
@@ -65,7 +64,18 @@ def _sync(c: Circuit) -> bool:
 
 
 def handles(c: Circuit) -> bool:
-    """Whether ``c`` is a bridge circuit of this module (not of ``netlist.build``)."""
+    """Whether ``c`` is a bridge circuit of this module (not of the plain
+    :func:`stresscheck.spice.deck_bridge.build`).
+
+    Parameters
+    ----------
+    c : Circuit
+
+    Returns
+    -------
+    bool
+        Phase shift, a current doubler or synchronous rectifiers.
+    """
     return c.topology in TOPOLOGIES and (getattr(c, "modulation", "pwm") == "phase-shift"
                                          or c.rectifier == "current-doubler" or _sync(c))
 
@@ -138,14 +148,15 @@ def warm_start(c: Circuit, duty: float) -> dict[str, float]:
 
 def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
           ic: dict | None, choke: str) -> tuple[str, Layout]:
-    """Netlist text and its :class:`Layout` (contract of :func:`netlist.build`)."""
+    """Netlist text and its :class:`Layout` (contract of
+    :func:`stresscheck.spice.deck_bridge.build`)."""
     check_supported(c)
     ts = switching_period(c)
     ps = c.modulation == "phase-shift"
     doubler = c.rectifier == "current-doubler"
     sync = _sync(c)
     ic = initial_conditions(c, ic, lambda c: warm_start(c, duty))
-    d = _Deck()
+    d = NetlistWriter()
     lay = d.lay
     d.add(f"* stresscheck reference: {c.topology} ({c.modulation}) / {c.rectifier} "
           f"rectifier{' (synchronous)' if sync else ''}, v_in={c.v_in:g} V, "
@@ -218,15 +229,6 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
     return d.finish(ts, t_stop, t_measure), lay
 
 
-def build_bridge(c: Circuit, duty: float, t_stop: float, t_measure: float,
-                 ic: dict | None, choke: str) -> tuple[str, Layout]:
-    """The bridge family's builder: this module's for its circuits (:func:`handles`),
-    :func:`netlist.build` for the others."""
-    if handles(c):
-        return build(c, duty, t_stop, t_measure, ic, choke)
-    return _PLAIN_BUILD(c, duty, t_stop, t_measure, ic, choke)
-
-
 class _DoublerView:
     """A measurement window as the bridges' slow-mode shift sees a current doubler: the
     two inductors as one (their sum) fed from the mean of the two winding ends."""
@@ -246,7 +248,8 @@ class _DoublerView:
 
 
 def _filters_consistent(c: Circuit, lay: Layout, w) -> dict[str, float]:
-    """The output- and input-filter shift of ``simulate._slow_mode_shift`` (same
+    """The output- and input-filter shift of
+    :func:`stresscheck.spice.elements.output_filter_shift` (same
     averaged equilibria, full bridge), with every period mean taken in a way that is
     exact for the integration method: under backward Euler the window's trapezoidal
     mean of a switched waveform is biased (an input-capacitor current that steps by
@@ -286,36 +289,43 @@ def _filters_consistent(c: Circuit, lay: Layout, w) -> dict[str, float]:
             "cin": c.v_in - ends(v_bus)}
 
 
-def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
-    """Contract of ``netlist.SLOW_MODE_SHIFTS``: (filter shift, flux shift, steady mean
-    output voltage) for every bridge circuit.
+def own_shift(c: Circuit) -> bool:
+    """Whether the bridge circuit ``c`` needs :func:`slow_mode_shift` of this module
+    rather than the plain bridges' (phase shift, current doubler).
 
-    Plain circuits and synchronous rectifiers: the bridges' own shift. Current
-    doubler: the same with the two equal inductors in parallel (L/2, DCR/2, the mean of
+    Parameters
+    ----------
+    c : Circuit
+
+    Returns
+    -------
+    bool
+    """
+    return c.modulation == "phase-shift" or c.rectifier == "current-doubler"
+
+
+def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
+    """Contract of :attr:`stresscheck.spice.elements.Deck.slow_mode_shift`: (filter
+    shift, flux shift [A, V], steady mean output voltage [V]) for the circuits of
+    :func:`own_shift`.
+
+    Current doubler: the same with the two equal inductors in parallel (L/2, DCR/2, the mean of
     the winding-end voltages drives their sum, Kirchhoff's laws); the common-mode shift
     goes half to each, their difference decays by itself. Phase shift (integrated by
     backward Euler, see :data:`PS_METHOD`): the filter shift from
     :func:`_filters_consistent`; the flux-bias shift of the magnetizing current is also
     a shift of the primary (leakage) current, the secondary carrying no bias.
     """
-    from dataclasses import replace
-
-    from .simulate import _slow_mode_shift  # imported late: simulate imports netlist
-
-    v_steady = w.mean(w["v(out)"])
+    v_steady = mean_output_voltage(w)
     if c.modulation == "phase-shift":
-        _, flux = _slow_mode_shift(c, lay, w, duty)
+        flux = flux_bias_shift(c, lay, w, duty)
         return _filters_consistent(c, lay, w), {**flux, "llk": flux["lm"]}, v_steady
-    if c.rectifier != "current-doubler":
-        filters, flux = _slow_mode_shift(c, lay, w, duty)
-        return filters, flux, v_steady
     par = replace(c, dcr_out=c.dcr_out * c.dcr_out_2 / (c.dcr_out + c.dcr_out_2)
                   if c.dcr_out + c.dcr_out_2 > 0 else 0.0)
-    filters, flux = _slow_mode_shift(par, lay, _DoublerView(w), duty)
+    view = _DoublerView(w)
+    filters = output_filter_shift(par, lay, view)
+    flux = flux_bias_shift(par, lay, view, duty)
     shared = filters.pop("lout") / 2
     filters.update(lout=shared, lout2=shared)
     return filters, flux, v_steady
 
-
-netlist.BUILDERS.update(dict.fromkeys(TOPOLOGIES, build_bridge))
-netlist.SLOW_MODE_SHIFTS.update(dict.fromkeys(TOPOLOGIES, slow_mode_shift))

@@ -1,31 +1,13 @@
-"""ngspice transient netlists of one corner of a bridge-family converter.
+"""Deck primitives: the element blocks, sources, switch and diode models and initial
+conditions that the ngspice decks of every family write, and the :class:`Deck` type
+of a family's deck.
 
-Topologies: ``full-bridge`` (PWM), ``half-bridge``, ``push-pull``; rectifiers
-``center-tap`` and ``full-bridge``. The models follow the project's ngspice notes
-(shared reference, "ngspice-notes"): ``S`` switches with an antiparallel body diode,
-an ideal transformer built from controlled sources plus one magnetizing inductance,
-straight-line diodes (offset source + near-ideal diode + slope resistor), L with DCR,
-C with ESR and a 0 V sense source, and a DC input behind a damped choke.
-
-Names shared with the measurement code (all lower case, as ngspice reports them):
-
-======================  ==========================================================
-``vq{k}``               sense source in the drain lead of switch ``k`` (switch and body
-                        diode together); drain node ``q{k}d``, source node per layout
-``vb{k}``               offset source of the body diode of switch ``k``: its current
-                        is the body-diode forward current
-``vd{k}``               offset source of rectifier ``k``: its current is the forward
-                        current; anode/cathode nodes per layout
-``lout``                output inductor, current from the rectifier node ``rect``
-                        towards the output node ``out``
-``lm``                  magnetizing inductance, current from the reference winding's
-                        dot to its undotted end (ramps up in the first on-interval)
-``lch``                 input choke (source node ``vsrc`` -> node ``bus``)
-``vco`` / ``vci``       output / input capacitor current sense (into the capacitor)
-``vct`` / ``vcb``       half-bridge top / bottom split-capacitor current sense
-``vp1``, ``vp2``        primary winding (half) current sense, into the dot
-``vw{k}``               secondary winding ``k`` current sense, into the dot
-======================  ==========================================================
+Models (the project's ngspice notes, shared reference "ngspice-notes"): ``S`` switches
+with an antiparallel body diode, an ideal transformer built from controlled sources
+plus one magnetizing inductance, straight-line diodes (offset source + near-ideal diode
++ slope resistor), L with DCR, C with ESR and a 0 V sense source, and a DC input behind
+a damped choke. The element names each block writes are listed in its docstring and in
+the docstring of each deck module.
 
 Initial conditions (``ic``) use the keys of :data:`IC_KEYS`: inductor currents [A] in the
 element's positive direction and capacitor voltages [V] across the ideal capacitance
@@ -36,11 +18,12 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from typing import Callable
+
+import numpy as np
 
 from .circuit import Circuit, DiodeModel
 
-TOPOLOGIES = ("full-bridge", "half-bridge", "push-pull")
-RECTIFIERS = ("center-tap", "full-bridge")
 CHOKES = ("short", "real")
 
 #: Near-ideal diode of the straight-line model: saturation current [A], emission coefficient.
@@ -67,7 +50,9 @@ ABSTOL = 1e-9
 #: Current at which the diode fit is exact, as a fraction of i_out (reflected for body
 #: diodes): a bridge rectifier conducts between i_out/2 (freewheel) and i_out.
 I_REF_FRACTION = 0.75
-IC_KEYS = ("lout", "lm", "lch", "cout", "cin", "ctop", "cbot")
+#: Initial-condition keys of the decks: inductor currents [A] by element name, capacitor
+#: voltages [V] (``cout``, ``cin``, half-bridge ``ctop``/``cbot``).
+IC_KEYS = ("lout", "lm", "lch", "cout", "cin", "ctop", "cbot", "lout2", "llk")
 
 
 @dataclass
@@ -100,43 +85,6 @@ class Layout:
     r_damp: float = 1.0  # [ohm] choke damping resistor, between ``vsrc`` and ``bus``
     l_choke: float = 1.0  # [H]
     l_m: float = 1.0  # [H] as simulated
-
-
-def check_supported(c: Circuit) -> None:
-    """Check that ``c`` is a circuit this module builds.
-
-    Raises
-    ------
-    NotImplementedError
-        Topology or rectifier outside :data:`TOPOLOGIES` / :data:`RECTIFIERS`,
-        phase-shift modulation, synchronous rectifiers.
-    ValueError
-        Position counts or capacitors that do not fit the topology.
-    """
-    if c.topology not in TOPOLOGIES:
-        raise NotImplementedError(f"ngspice netlist for topology {c.topology!r} not "
-                                  f"available; valid: {', '.join(TOPOLOGIES)}")
-    if c.rectifier not in RECTIFIERS:
-        raise NotImplementedError(f"ngspice netlist for rectifier {c.rectifier!r} not "
-                                  f"available; valid: {', '.join(RECTIFIERS)}")
-    modulation = getattr(c, "modulation", "pwm")
-    if c.topology == "full-bridge" and modulation != "pwm":
-        raise NotImplementedError(f"ngspice netlist for {modulation!r} modulation not "
-                                  "available; valid: pwm")
-    if not all(isinstance(d, DiodeModel) for d in c.rectifiers):
-        raise NotImplementedError("ngspice netlist for synchronous rectifiers not available")
-    n_sw = {"full-bridge": 4, "half-bridge": 2, "push-pull": 2}[c.topology]
-    n_rect = {"center-tap": 2, "full-bridge": 4}[c.rectifier]
-    if len(c.switches) != n_sw or len(c.rectifiers) != n_rect:
-        raise ValueError(f"{c.topology}/{c.rectifier} needs {n_sw} switches and {n_rect} "
-                         f"rectifiers, got {len(c.switches)} and {len(c.rectifiers)}")
-    if c.c_out is None:
-        raise ValueError("c_out is missing")
-    if c.topology == "half-bridge" and len(c.c_split) != 2:
-        raise ValueError("half-bridge needs c_split = [top, bottom]")
-    if c.topology != "half-bridge" and c.c_in is None:
-        raise ValueError(f"{c.topology} needs c_in")
-
 
 def diode_offset(d: DiodeModel, i_ref: float) -> float:
     """Offset source of the straight-line diode model [V].
@@ -189,10 +137,9 @@ def initial_conditions(c: Circuit, ic: dict | None, warm=analytic_ic) -> dict[st
     of ``ic`` taking precedence."""
     return {**warm(c), **(ic or {})}
 
-
-class _Deck:
+class NetlistWriter:
     """Lines of one netlist and its :class:`Layout` (``lay``), with the element blocks
-    that the builders of every family share (the models of the module docstring)."""
+    that the decks of every family share (the models of the module docstring)."""
 
     def __init__(self):
         self.lines: list[str] = []
@@ -340,146 +287,13 @@ class _Deck:
         return "\n".join(self.lines) + "\n"
 
 
-#: Switch legs (drain, source, gate) of the bridge family in switch order. Gate 1 drives
-#: the first half-cycle from t = 0, gate 2 the second from Ts/2: full-bridge pairs (0, 3)
-#: and (2, 1), half-bridge high and low, push-pull 0 and 1.
-BRIDGE_LEGS = {"full-bridge": [("bus", "pa", "1"), ("pa", "0", "2"), ("bus", "pb", "2"),
-                               ("pb", "0", "1")],
-               "half-bridge": [("bus", "sw", "1"), ("sw", "0", "2")],
-               "push-pull": [("d1", "0", "1"), ("d2", "0", "2")]}
-
-
-def bridge_switches(d: _Deck, c: Circuit, legs) -> None:
-    """Switches with body diodes (anode at the source), a sense source in each drain
-    lead; legs (drain, source, gate) in switch order. The body-diode fit is exact at
-    :data:`I_REF_FRACTION` of i_out reflected to the primary [A]."""
-    i_body = I_REF_FRACTION * c.i_out * c.n_s / c.n_p
-    for k, ((drain, source, gate), sw) in enumerate(zip(legs, c.switches)):
-        d.lay.switches.append(d.switch(k, drain, source, gate, sw, i_body))
-
-
-def bridge_transformer(d: _Deck, c: Circuit, ic: dict, lead: str = "pa") -> str:
-    """Transformer of the bridge family: reference winding (dot p1, undot pu) with Lm;
-    E/F for the second primary half (push-pull). ``lead``: the full-bridge node that
-    feeds the primary sense. Returns pu."""
-    lay = d.lay
-    if c.topology == "full-bridge":
-        d.primary(lead, c.r_primary)
-        pu = "pb"
-    elif c.topology == "half-bridge":
-        d.primary("sw", c.r_primary)
-        pu = "mid"
-    else:
-        # Half 1: bus (centre tap) -> dot p1 ... undot d1; half 2: bus ... dot d2.
-        d.primary("bus", c.r_primary)
-        pu = "d1"
-        d.add("vp2 d2 p2d 0")
-        d.add("Ep2 p2d p2u p1 d1 1")
-        d.add("Fp2 p1 d1 vp2 -1")
-        d.res("p2", "p2u", "bus", c.r_primary)
-        lay.windings["primary-2"] = ("vp2", c.r_primary)
-    lay.windings["primary-1" if c.topology == "push-pull" else "primary"] = ("vp1", c.r_primary)
-    d.magnetizing(pu, c.l_m, ic["lm"])
-    return pu
-
-
-def bridge_secondaries(d: _Deck, c: Circuit, pu: str):
-    """Secondary windings of the bridge family (reference winding (p1, pu)); returns the
-    rectifier positions (anode, cathode) and the indexes of group A (conducting with the
-    first half-cycle). Center-tap and full-bridge rectifiers feed node ``rect``; the
-    current doubler's winding ends ``sa`` and ``sb`` feed its two inductors."""
-    ratio = c.n_s / c.n_p
-
-    def winding(k: int, dot: str, undot: str) -> None:
-        d.winding(str(k), dot, undot, pu, ratio, c.r_secondary)
-        d.lay.windings[f"secondary-{k + 1}"] = (f"vw{k}", c.r_secondary)
-
-    if c.rectifier == "center-tap":
-        winding(0, "sa", "0")  # V(sa) = +n·Vp
-        winding(1, "0", "sb")  # V(sb) = -n·Vp
-        return [("sa", "rect"), ("sb", "rect")], (0,)
-    if c.rectifier == "full-bridge":
-        winding(0, "sa", "sb")
-        d.add(f"Rfloat sb 0 {R_FLOAT:g}")
-        return [("sa", "rect"), ("sb", "rect"), ("0", "sa"), ("0", "sb")], (0, 3)
-    winding(0, "sa", "sb")  # current doubler
-    return [("0", "sb"), ("0", "sa")], (0,)
-
-
-def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
-          ic: dict | None, choke: str) -> tuple[str, Layout]:
-    """Netlist text and its :class:`Layout`; see :func:`build_netlist`."""
-    check_supported(c)
-    ts = switching_period(c)
-    ic = initial_conditions(c, ic)
-    d = _Deck()
-    lay = d.lay
-    d.add(f"* stresscheck reference: {c.topology} / {c.rectifier} rectifier, "
-          f"v_in={c.v_in:g} V, v_out={c.v_out:g} V, i_out={c.i_out:g} A, "
-          f"f_sw={c.f_sw:g} Hz, duty={duty:.9f}, choke={choke}")
-    d.options()
-    d.switch_models(c.switches)
-
-    # Input: source -> choke || damping -> bus, and the input (or split) capacitors.
-    d.input_filter(c, choke, ic)
-
-    # Gate 1 drives the first half-cycle from t = 0, gate 2 the second from Ts/2
-    # (switch legs: BRIDGE_LEGS).
-    d.gate("1", 0.0, duty * ts, ts)
-    d.gate("2", ts / 2, duty * ts, ts)
-    bridge_switches(d, c, BRIDGE_LEGS[c.topology])
-
-    # Transformer: reference winding (dot p1, undot pu) with Lm; E/F for the others.
-    pu = bridge_transformer(d, c, ic)
-
-    # Rectifier into node rect; output return is ground.
-    pins, _ = bridge_secondaries(d, c, pu)
-    i_rect = I_REF_FRACTION * c.i_out
-    for k, ((anode, cathode), dm) in enumerate(zip(pins, c.rectifiers)):
-        d.diode_at(lay.rectifiers, f"d{k}", anode, cathode, dm, i_rect)
-
-    # Output filter and load.
-    d.inductor("Lout", "rect", "out", c.l_out, c.dcr_out, ic["lout"])
-    d.output(c, ic)
-    return d.finish(ts, t_stop, t_measure), lay
-
-
-def build_netlist(c: Circuit, duty: float, t_stop: float, t_measure: float,
-                  ic: dict | None, choke: str) -> str:
-    """Transient netlist of one corner.
-
-    Parameters
-    ----------
-    c : Circuit
-        The corner (bridge family).
-    duty : float
-        On-time of each switch (full-bridge: each diagonal pair) per period [1].
-    t_stop : float
-        Simulated time from the initial conditions [s]; a whole number of periods.
-    t_measure : float
-        Length of the window at the end whose time points are saved [s]; saving starts
-        one maximum step earlier so the window's first instant can be interpolated.
-    ic : dict or None
-        Initial state by :data:`IC_KEYS` [A, V]; missing keys come from
-        :func:`analytic_ic`.
-    choke : {"short", "real"}
-        Input choke, see :data:`CHOKE_RESONANCE`.
-
-    Returns
-    -------
-    str
-        The deck, ending with ``.tran ... uic`` and ``.end`` (no ``.control`` block).
-    """
-    return build(c, duty, t_stop, t_measure, ic, choke)[0]
-
-
 def diode_sweep_netlist(d: DiodeModel, i_ref: float, i_max: float, n: int = 50) -> str:
     """DC sweep of the straight-line diode model from i_max/n to i_max [A].
 
     The diode's terminal voltage is ``v(a)``; offset chosen for ``i_ref`` [A] as in
     the converter netlists.
     """
-    deck = _Deck()
+    deck = NetlistWriter()
     deck.add("* straight-line diode model, DC sweep")
     deck.add(".options rshunt=1e9 reltol=1e-5")
     deck.add(f".model didl D(IS={DIODE_IS:g} N={DIODE_N:g})")
@@ -491,17 +305,106 @@ def diode_sweep_netlist(d: DiodeModel, i_ref: float, i_max: float, n: int = 50) 
     return "\n".join(deck.lines) + "\n"
 
 
-#: Netlist builder per topology, ``build(c, duty, t_stop, t_measure, ic, choke) -> (text,
-#: Layout)``; and, where it is not the bridges' half period, the largest duty ratio of
-#: the circuit, ``duty_limit(c) -> float``; and, where the bridges' output-filter and
-#: flux-bias shift does not apply, the slow-mode shift of ``simulate._slow_mode_shift``,
-#: ``shift(c, lay, w, duty) -> (filters, flux)``. Other families register theirs from
-#: their own modules, imported here.
-BUILDERS = dict.fromkeys(TOPOLOGIES, build)
-DUTY_LIMITS: dict = {}
-SLOW_MODE_SHIFTS: dict = {}
+@dataclass(frozen=True)
+class Deck:
+    """The ngspice deck of one converter family, as the simulation uses it.
 
-from . import netlist_forward  # noqa: E402,F401  (registers the forward family)
-from . import netlist_flyback  # noqa: E402,F401  (registers the flyback)
-from . import netlist_bridge_ext  # noqa: E402,F401  (phase shift, current doubler, sync)
-from . import netlist_buck_boost  # noqa: E402,F401  (registers buck and boost)
+    Attributes
+    ----------
+    name : str
+        The family, for messages.
+    build : callable
+        ``build(c, duty, t_stop, t_measure, ic, choke) -> (text, Layout)``: the netlist
+        of circuit ``c`` at ``duty`` [1], ``t_stop`` and ``t_measure`` [s], initial state
+        ``ic`` by :data:`IC_KEYS` [A, V] and input ``choke`` (``"short"`` | ``"real"``).
+        It checks that it builds ``c`` (``NotImplementedError``, ``ValueError``).
+    duty_limit : callable
+        ``duty_limit(c) -> float``: the largest duty ratio the deck can simulate [1].
+    slow_mode_shift : callable
+        ``slow_mode_shift(c, lay, w, duty) -> (filters, flux, v_steady)``: the state shift
+        to the averaged equilibrium of a run's duty, by IC key [A, V], split into the
+        filter shift and the flux-bias shift, and the estimated steady mean output
+        voltage of the duty [V] (see :mod:`stresscheck.spice.simulate`).
+    """
+
+    name: str
+    build: Callable
+    duty_limit: Callable
+    slow_mode_shift: Callable
+
+
+def period_ends(w, x: np.ndarray, ts: float) -> tuple[float, float]:
+    """The value of ``x`` at the end of a run and its change per period.
+
+    Parameters
+    ----------
+    w : measurement window
+        ``mean_between(x, t0, t1)`` and times ``t`` [s] (``simulate`` passes its window).
+    x : numpy.ndarray
+        Samples of one quantity over the window [V or A].
+    ts : float
+        Switching period [s].
+
+    Returns
+    -------
+    (float, float)
+        The last period's mean extrapolated half a period with the period before, and
+        the last period's mean less the one before [V or A].
+    """
+    t1 = w.t[-1]
+    last = w.mean_between(x, t1 - ts, t1)
+    before = w.mean_between(x, t1 - 2 * ts, t1 - ts)
+    return 1.5 * last - 0.5 * before, last - before
+
+
+def output_filter_shift(c: Circuit, lay: Layout, w) -> dict[str, float]:
+    """Shift of the output L-C and input filter to their averaged equilibrium [A, V].
+
+    For decks whose output inductor ``lout`` is fed from node ``rect`` (bridges,
+    forward, buck). With a light load the L-C filter rings for hundreds of periods
+    (Q = R·sqrt(C/L) reaches 10 or more). Over whole periods its averaged equilibrium
+    is i_L = <v_rect>/(R_load + DCR), v_C = R_load·i_L with the rectified voltage
+    <v_rect> of the last period (scaled as if the bus sat at v_in); the drops' change
+    with current is left to the next run. The bus settles at v_in, the choke current at
+    the converter's mean draw scaled by the same ratio.
+
+    Parameters
+    ----------
+    c : Circuit
+    lay : Layout
+        Names of the netlist of the run.
+    w : measurement window
+        The end of the run (see :func:`period_ends`).
+
+    Returns
+    -------
+    dict of str to float
+        Shift by IC key: ``lout``, ``lch`` [A], ``cout`` and ``cin`` (half-bridge
+        ``ctop`` and ``cbot``, half each) [V].
+    """
+    ts = 1.0 / c.f_sw
+    t1 = w.t[-1]
+    v_bus = w["v(bus)"]
+    split = ("split-capacitor", 0) in lay.caps
+    cap_sense = lay.caps[("split-capacitor", 0) if split else ("input-capacitor", 0)][0]
+    i_choke = w["i(lch)"]
+    i_draw = i_choke + (c.v_in - v_bus) / lay.r_damp - w[f"i({cap_sense})"]
+    scale = c.v_in / w.mean_between(v_bus, t1 - ts, t1)  # v_rect follows the bus
+    _, _, _, cp, cm = lay.caps[("output-capacitor", 0)]
+    i_l = period_ends(w, w["i(lout)"], ts)[0]
+    i_eq = scale * w.mean_between(w["v(rect)"], t1 - ts, t1) / (lay.r_load + c.dcr_out)
+    filters = {"lout": i_eq - i_l,
+               "cout": lay.r_load * i_eq - period_ends(w, w[f"v({cp})"] - w[f"v({cm})"], ts)[0],
+               "lch": period_ends(w, i_draw, ts)[0] * i_eq / i_l - period_ends(w, i_choke, ts)[0]}
+    dv_bus = c.v_in - period_ends(w, v_bus, ts)[0]
+    if split:
+        filters.update(ctop=dv_bus / 2, cbot=dv_bus / 2)
+    else:
+        filters["cin"] = dv_bus
+    return filters
+
+
+def mean_output_voltage(w) -> float:
+    """Mean output voltage over the window [V], the steady-state estimate of decks whose
+    filters :func:`output_filter_shift` settles."""
+    return w.mean(w["v(out)"])

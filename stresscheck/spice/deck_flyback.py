@@ -1,7 +1,7 @@
 """ngspice transient netlists of one corner of a flyback converter (diode rectifier, or a
 synchronous rectifier MOSFET with dead time).
 
-Models as in :mod:`stresscheck.spice.netlist` and the project's ngspice notes: an ``S``
+Models as in :mod:`stresscheck.spice.elements` and the project's ngspice notes: an ``S``
 switch with an antiparallel body diode, a straight-line rectifier diode (offset source +
 near-ideal diode + slope resistor), C with ESR and a 0 V sense source, a DC input behind
 a damped choke. The coupled inductor is the magnetizing inductance ``lm`` across the
@@ -21,7 +21,7 @@ the secondary current in the dead times, and its channel conducts both ways (for
 continuous conduction). Leakage inductance is left out, like in the analytic
 model (stresses "before any spike"; no clamp or snubber is modelled).
 
-Element names are those of :mod:`stresscheck.spice.netlist` (same :class:`Layout`):
+Element names are those of :mod:`stresscheck.spice.elements` (same :class:`Layout`):
 
 ======================  ==========================================================
 ``vq0``                 sense source in the drain lead of the switch, from the
@@ -41,7 +41,7 @@ There is no output inductor (``lout``); the measurement code reads ``i(lm)`` in 
 for the steady-state test. The slow modes (the output capacitor against the magnetizing
 inductance in CCM, against the load in DCM, and the input filter) are shifted to their
 averaged equilibrium between the runs of the duty search by :func:`slow_mode_shift`
-(registered in ``netlist.SLOW_MODE_SHIFTS``).
+(the flyback's :data:`DECK`).
 """
 
 from __future__ import annotations
@@ -50,9 +50,9 @@ import math
 
 import numpy as np
 
-from . import netlist
 from .circuit import Circuit, DiodeModel, SwitchModel
-from .netlist import T_EDGE, Layout, _Deck, initial_conditions, switching_period
+from .elements import (T_EDGE, Deck, Layout, NetlistWriter, initial_conditions, period_ends,
+                       switching_period)
 
 TOPOLOGIES = ("flyback",)
 #: The magnetizing current counts as continuous when its minimum over a period is above
@@ -121,11 +121,12 @@ def _rectifier_ref_current(c: Circuit, duty: float) -> float:
 
 def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
           ic: dict | None, choke: str) -> tuple[str, Layout]:
-    """Netlist text and its :class:`Layout` (contract of :func:`netlist.build`)."""
+    """Netlist text and its :class:`Layout` (contract of
+    :func:`stresscheck.spice.deck_bridge.build`)."""
     check_supported(c)
     ts = switching_period(c)
     ic = initial_conditions(c, ic)
-    d = _Deck()
+    d = NetlistWriter()
     lay = d.lay
     sync, td = synchronous(c), dead_time(c)
     kind = f"synchronous rectifier, dead_time={td:g} s" if sync else "diode rectifier"
@@ -171,8 +172,8 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
 def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
     """State shifts that bring a run's final state to its averaged equilibrium [A, V].
 
-    Contract of ``netlist.SLOW_MODE_SHIFTS``: (shift of the filter states, shift of the
-    flux bias, both by netlist IC key, and the estimated steady-state mean output voltage
+    Contract of :attr:`stresscheck.spice.elements.Deck.slow_mode_shift`: (shift of the
+    filter states, shift of the flux bias, both by netlist IC key, and the estimated steady-state mean output voltage
     at this duty [V], which the duty search steers by). A flyback has no flux bias apart
     from its magnetizing current, which is a filter state here, so the second is empty.
 
@@ -204,9 +205,7 @@ def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
     t1 = w.t[-1]
 
     def ends(x):
-        last = w.mean_between(x, t1 - ts, t1)
-        before = w.mean_between(x, t1 - 2 * ts, t1 - ts)
-        return 1.5 * last - 0.5 * before, last - before
+        return period_ends(w, x, ts)
 
     def period_mean(x):
         return w.mean_between(x, t1 - ts, t1)
@@ -251,6 +250,6 @@ def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
     return filters, {}, v_c + filters["cout"]
 
 
-netlist.BUILDERS.update(dict.fromkeys(TOPOLOGIES, build))
-netlist.DUTY_LIMITS.update(dict.fromkeys(TOPOLOGIES, duty_limit))
-netlist.SLOW_MODE_SHIFTS.update(dict.fromkeys(TOPOLOGIES, slow_mode_shift))
+
+#: The flyback's deck (diode or synchronous rectifier).
+DECK = Deck("flyback", build, duty_limit, slow_mode_shift)

@@ -5,7 +5,7 @@ Topologies: ``buck`` (high-side switch ``switches[0]``, freewheel ``freewheels[0
 or rectifier is a diode, or a MOSFET (synchronous, driven complementary to the switch
 with ``dead_time`` between the two gates).
 
-Models as in :mod:`stresscheck.spice.netlist` and the project's ngspice notes: ``S``
+Models as in :mod:`stresscheck.spice.elements` and the project's ngspice notes: ``S``
 switches with an antiparallel body diode, straight-line diodes (offset source +
 near-ideal diode + slope resistor), L with DCR, C with ESR and a 0 V sense source, a
 DC input behind a damped choke (the input capacitors carry all the AC current), a load
@@ -13,7 +13,7 @@ resistor v_out/i_out. No switch-node capacitance: in the idle interval of
 discontinuous conduction the node follows the inductor (zero current), as in the
 analytic model.
 
-Element names are those of :mod:`stresscheck.spice.netlist` (same :class:`Layout`):
+Element names are those of :mod:`stresscheck.spice.elements` (same :class:`Layout`):
 
 ======================  ==========================================================
 ``vq0``                 sense source in the drain lead of the switch (buck: from
@@ -41,9 +41,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import netlist
 from .circuit import Circuit, SwitchModel
-from .netlist import T_EDGE, Layout, _Deck, initial_conditions, switching_period
+from .elements import (T_EDGE, Deck, Layout, NetlistWriter, initial_conditions,
+                       mean_output_voltage, output_filter_shift, period_ends,
+                       switching_period)
 
 TOPOLOGIES = ("buck", "boost")
 
@@ -97,12 +98,13 @@ def inductor_current(c: Circuit) -> float:
 
 def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
           ic: dict | None, choke: str) -> tuple[str, Layout]:
-    """Netlist text and its :class:`Layout` (contract of :func:`netlist.build`)."""
+    """Netlist text and its :class:`Layout` (contract of
+    :func:`stresscheck.spice.deck_bridge.build`)."""
     check_supported(c)
     ts = switching_period(c)
     td = dead_time(c)
     ic = initial_conditions(c, ic)
-    d = _Deck()
+    d = NetlistWriter()
     lay = d.lay
     p = passive_position(c)
     kind = "synchronous" if synchronous(c) else "diode"
@@ -173,8 +175,8 @@ def boost_slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
         return w.mean_between(x, t1 - ts, t1)
 
     def end_and_rate(x):
-        a, b = last(x), w.mean_between(x, t1 - 2 * ts, t1 - ts)
-        return 1.5 * a - 0.5 * b, (a - b) / ts
+        end, change = period_ends(w, x, ts)
+        return end, change / ts
 
     def cap_voltage(key):
         _, _, _, cp, cm = lay.caps[key]
@@ -193,7 +195,7 @@ def boost_slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
     waves = [w["i(lch)"], cap_voltage(("input-capacitor", 0)), i_l,
              cap_voltage(("output-capacitor", 0))]
     x, rate = np.array([end_and_rate(v) for v in waves]).T
-    vb, vc = last(waves[1]), last(waves[3])
+    v_bus, v_c = last(waves[1]), last(waves[3])
     ip, il = last(i_p), last(i_l)
     continuous = synchronous(c) or float(np.min(i_l[w.t >= t1 - ts])) > 0.01 * il
     if continuous:
@@ -205,8 +207,8 @@ def boost_slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
                       [0, 0, g / c_out, -1 / (r * c_out)]])
         keep = [0, 1, 2, 3]
     else:
-        d_il = (il * (1 / vb + 1 / (vc - vb)), il * (1 / vc - 1 / (vc - vb)))
-        d_ip = (ip * (2 / vb + 1 / (vc - vb)), -ip / (vc - vb))
+        d_il = (il * (1 / v_bus + 1 / (v_c - v_bus)), il * (1 / v_c - 1 / (v_c - v_bus)))
+        d_ip = (ip * (2 / v_bus + 1 / (v_c - v_bus)), -ip / (v_c - v_bus))
         a = np.array([[0, -1 / l_ch, 0],
                       [1 / c_in, (-1 / r_d - d_il[0]) / c_in, -d_il[1] / c_in],
                       [0, d_ip[0] / c_out, (d_ip[1] - 1 / r) / c_out]])
@@ -217,6 +219,15 @@ def boost_slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
     return filters, {}, v_eq
 
 
-netlist.BUILDERS.update(dict.fromkeys(TOPOLOGIES, build))
-netlist.DUTY_LIMITS.update(dict.fromkeys(TOPOLOGIES, duty_limit))
-netlist.SLOW_MODE_SHIFTS["boost"] = boost_slow_mode_shift
+
+def buck_slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
+    """Contract of :attr:`stresscheck.spice.elements.Deck.slow_mode_shift` for a buck: the
+    output and input filter shift (:func:`stresscheck.spice.elements.output_filter_shift`;
+    the switch node is ``rect``), no flux shift and the window's mean output voltage
+    [A, V]."""
+    return output_filter_shift(c, lay, w), {}, mean_output_voltage(w)
+
+
+#: The buck's and the boost's decks.
+BUCK = Deck("buck", build, duty_limit, buck_slow_mode_shift)
+BOOST = Deck("boost", build, duty_limit, boost_slow_mode_shift)
