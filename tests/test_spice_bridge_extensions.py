@@ -4,7 +4,7 @@ bridge and half bridge with current doubler, full bridge with synchronous center
 rectifier (with dead time; and forced CCM at light load), phase-shifted full bridge with
 synchronous center-tap rectifier (channels gated from the lagging leg, dead time).
 
-Reference: ngspice transient simulation (stresscheck.spice.netlist_bridge_ext: ideal
+Reference: ngspice transient simulation (stresscheck.spice.deck_bridge_ext: ideal
 transformer from controlled sources plus magnetizing inductance and, for phase shift,
 an explicit series leakage inductance; switches with R_DS(on) and body diodes gated per
 switch; straight-line diodes; L with DCR, C with ESR; a DC-only input source), regulated

@@ -7,10 +7,56 @@ windings, and the flux-bias shift of the duty search. Element names as in
 
 from __future__ import annotations
 
-from .circuit import Circuit
+from .circuit import Circuit, SwitchModel
 from .elements import I_REF_FRACTION, R_FLOAT, Layout, NetlistWriter, period_ends
 
 TOPOLOGIES = ("full-bridge", "half-bridge", "push-pull")
+RECTIFIERS = ("center-tap", "full-bridge", "current-doubler")
+
+
+def check_supported(c: Circuit) -> None:
+    """Check that ``c`` is a bridge circuit that the bridge decks build.
+
+    Raises
+    ------
+    NotImplementedError
+        Another topology; phase shift on a half-bridge or push-pull, or with a current
+        doubler.
+    ValueError
+        Position counts, inductors or capacitors that do not fit; phase shift without
+        leakage inductance; mixed diode and MOSFET rectifiers.
+    """
+    if c.topology not in TOPOLOGIES:
+        raise NotImplementedError(f"ngspice netlist for topology {c.topology!r} not "
+                                  f"available; valid: {', '.join(TOPOLOGIES)}")
+    if c.rectifier not in RECTIFIERS:
+        raise NotImplementedError(f"ngspice netlist for rectifier {c.rectifier!r} not "
+                                  f"available; valid: {', '.join(RECTIFIERS)}")
+    if len({isinstance(r, SwitchModel) for r in c.rectifiers}) > 1:
+        raise ValueError("rectifiers must be all diodes or all synchronous MOSFETs")
+    if c.modulation == "phase-shift":
+        if c.topology != "full-bridge":
+            raise NotImplementedError("phase-shift modulation needs a full bridge")
+        if c.rectifier == "current-doubler":
+            raise NotImplementedError("ngspice netlist for phase shift with a current "
+                                      "doubler not available")
+        if not c.l_leak > 0:
+            raise ValueError("phase-shift modulation needs l_leak > 0")
+    elif c.modulation != "pwm":
+        raise NotImplementedError(f"modulation {c.modulation!r} not available")
+    n_sw = {"full-bridge": 4, "half-bridge": 2, "push-pull": 2}[c.topology]
+    n_rect = {"center-tap": 2, "full-bridge": 4, "current-doubler": 2}[c.rectifier]
+    if len(c.switches) != n_sw or len(c.rectifiers) != n_rect:
+        raise ValueError(f"{c.topology}/{c.rectifier} needs {n_sw} switches and {n_rect} "
+                         f"rectifiers, got {len(c.switches)} and {len(c.rectifiers)}")
+    if c.rectifier == "current-doubler" and not c.l_out_2:
+        raise ValueError("a current doubler needs l_out_2")
+    if c.c_out is None:
+        raise ValueError("c_out is missing")
+    if c.topology == "half-bridge" and len(c.c_split) != 2:
+        raise ValueError("half-bridge needs c_split = [top, bottom]")
+    if c.topology != "half-bridge" and c.c_in is None:
+        raise ValueError(f"{c.topology} needs c_in")
 
 
 #: Switch legs (drain, source, gate) of the bridge family in switch order. Gate 1 drives

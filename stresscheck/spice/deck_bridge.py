@@ -34,50 +34,12 @@ Initial conditions (``ic``) use the keys of :data:`stresscheck.spice.elements.IC
 from __future__ import annotations
 
 from . import deck_bridge_ext
-from .bridge_parts import (BRIDGE_LEGS, TOPOLOGIES, bridge_secondaries, bridge_switches,
-                           bridge_transformer, flux_bias_shift)
-from .circuit import Circuit, DiodeModel
+from .bridge_parts import (BRIDGE_LEGS, bridge_secondaries, bridge_switches,
+                           bridge_transformer, check_supported, flux_bias_shift)
+from .circuit import Circuit
 from .elements import (I_REF_FRACTION, T_EDGE, Deck, Layout, NetlistWriter,
                        initial_conditions, mean_output_voltage, output_filter_shift,
                        switching_period)
-
-RECTIFIERS = ("center-tap", "full-bridge")
-
-
-def check_supported(c: Circuit) -> None:
-    """Check that ``c`` is a circuit this module builds.
-
-    Raises
-    ------
-    NotImplementedError
-        Topology or rectifier outside :data:`TOPOLOGIES` / :data:`RECTIFIERS`,
-        phase-shift modulation, synchronous rectifiers.
-    ValueError
-        Position counts or capacitors that do not fit the topology.
-    """
-    if c.topology not in TOPOLOGIES:
-        raise NotImplementedError(f"ngspice netlist for topology {c.topology!r} not "
-                                  f"available; valid: {', '.join(TOPOLOGIES)}")
-    if c.rectifier not in RECTIFIERS:
-        raise NotImplementedError(f"ngspice netlist for rectifier {c.rectifier!r} not "
-                                  f"available; valid: {', '.join(RECTIFIERS)}")
-    modulation = getattr(c, "modulation", "pwm")
-    if c.topology == "full-bridge" and modulation != "pwm":
-        raise NotImplementedError(f"ngspice netlist for {modulation!r} modulation not "
-                                  "available; valid: pwm")
-    if not all(isinstance(d, DiodeModel) for d in c.rectifiers):
-        raise NotImplementedError("ngspice netlist for synchronous rectifiers not available")
-    n_sw = {"full-bridge": 4, "half-bridge": 2, "push-pull": 2}[c.topology]
-    n_rect = {"center-tap": 2, "full-bridge": 4}[c.rectifier]
-    if len(c.switches) != n_sw or len(c.rectifiers) != n_rect:
-        raise ValueError(f"{c.topology}/{c.rectifier} needs {n_sw} switches and {n_rect} "
-                         f"rectifiers, got {len(c.switches)} and {len(c.rectifiers)}")
-    if c.c_out is None:
-        raise ValueError("c_out is missing")
-    if c.topology == "half-bridge" and len(c.c_split) != 2:
-        raise ValueError("half-bridge needs c_split = [top, bottom]")
-    if c.topology != "half-bridge" and c.c_in is None:
-        raise ValueError(f"{c.topology} needs c_in")
 
 def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
           ic: dict | None, choke: str) -> tuple[str, Layout]:

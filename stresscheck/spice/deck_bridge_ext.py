@@ -44,12 +44,11 @@ from dataclasses import replace
 import numpy as np
 
 from .bridge_parts import (BRIDGE_LEGS, TOPOLOGIES, bridge_secondaries, bridge_switches,
-                           bridge_transformer, flux_bias_shift)
+                           bridge_transformer, check_supported, flux_bias_shift)
 from .circuit import Circuit, DiodeModel, SwitchModel
 from .elements import (I_REF_FRACTION, Layout, NetlistWriter, analytic_ic, initial_conditions,
                        mean_output_voltage, output_filter_shift, switching_period)
 
-RECTIFIERS = ("center-tap", "full-bridge", "current-doubler")
 #: Integration of the phase-shift decks: backward Euler (first-order Gear). At the end of
 #: each commutation a rectifier turns off and the leakage, magnetizing and (reflected)
 #: output inductances form an all-inductor cutset: the trapezoidal rule then rings from
@@ -78,52 +77,6 @@ def handles(c: Circuit) -> bool:
     """
     return c.topology in TOPOLOGIES and (getattr(c, "modulation", "pwm") == "phase-shift"
                                          or c.rectifier == "current-doubler" or _sync(c))
-
-
-def check_supported(c: Circuit) -> None:
-    """Check that ``c`` is a circuit this module builds.
-
-    Raises
-    ------
-    NotImplementedError
-        Another topology; phase shift on a half-bridge or push-pull, or with a current
-        doubler.
-    ValueError
-        Position counts, inductors or capacitors that do not fit; phase shift without
-        leakage inductance; mixed diode and MOSFET rectifiers.
-    """
-    if c.topology not in TOPOLOGIES:
-        raise NotImplementedError(f"ngspice netlist for topology {c.topology!r} not "
-                                  f"available here; valid: {', '.join(TOPOLOGIES)}")
-    if c.rectifier not in RECTIFIERS:
-        raise NotImplementedError(f"ngspice netlist for rectifier {c.rectifier!r} not "
-                                  f"available; valid: {', '.join(RECTIFIERS)}")
-    sync = _sync(c)
-    if sync and not all(isinstance(r, SwitchModel) for r in c.rectifiers):
-        raise ValueError("rectifiers must be all diodes or all synchronous MOSFETs")
-    if c.modulation == "phase-shift":
-        if c.topology != "full-bridge":
-            raise NotImplementedError("phase-shift modulation needs a full bridge")
-        if c.rectifier == "current-doubler":
-            raise NotImplementedError("ngspice netlist for phase shift with a current "
-                                      "doubler not available")
-        if not c.l_leak > 0:
-            raise ValueError("phase-shift modulation needs l_leak > 0")
-    elif c.modulation != "pwm":
-        raise NotImplementedError(f"modulation {c.modulation!r} not available")
-    n_sw = {"full-bridge": 4, "half-bridge": 2, "push-pull": 2}[c.topology]
-    n_rect = {"center-tap": 2, "full-bridge": 4, "current-doubler": 2}[c.rectifier]
-    if len(c.switches) != n_sw or len(c.rectifiers) != n_rect:
-        raise ValueError(f"{c.topology}/{c.rectifier} needs {n_sw} switches and {n_rect} "
-                         f"rectifiers, got {len(c.switches)} and {len(c.rectifiers)}")
-    if c.rectifier == "current-doubler" and not c.l_out_2:
-        raise ValueError("a current doubler needs l_out_2")
-    if c.c_out is None:
-        raise ValueError("c_out is missing")
-    if c.topology == "half-bridge" and len(c.c_split) != 2:
-        raise ValueError("half-bridge needs c_split = [top, bottom]")
-    if c.topology != "half-bridge" and c.c_in is None:
-        raise ValueError(f"{c.topology} needs c_in")
 
 
 def body_window(c: Circuit, duty: float) -> float:
@@ -290,17 +243,8 @@ def _filters_consistent(c: Circuit, lay: Layout, w) -> dict[str, float]:
 
 
 def own_shift(c: Circuit) -> bool:
-    """Whether the bridge circuit ``c`` needs :func:`slow_mode_shift` of this module
-    rather than the plain bridges' (phase shift, current doubler).
-
-    Parameters
-    ----------
-    c : Circuit
-
-    Returns
-    -------
-    bool
-    """
+    """True where the bridge circuit ``c`` (phase shift, current doubler) needs this
+    module's :func:`slow_mode_shift`, False where the plain bridges' applies."""
     return c.modulation == "phase-shift" or c.rectifier == "current-doubler"
 
 

@@ -33,8 +33,9 @@ Element names are those of :mod:`stresscheck.spice.elements` (same :class:`Layou
 ======================  ==========================================================
 
 The buck's switch node is named ``rect`` so that the output-filter equilibrium of
-``simulate`` (averaged over whole periods, <v_rect> into R_load + DCR) applies to it;
-the boost registers its own (:func:`boost_slow_mode_shift`).
+:func:`stresscheck.spice.elements.output_filter_shift` (averaged over whole periods,
+<v_rect> into R_load + DCR) applies to it; the boost has its own
+(:func:`boost_slow_mode_shift`).
 """
 
 from __future__ import annotations
@@ -50,14 +51,15 @@ TOPOLOGIES = ("buck", "boost")
 
 
 def check_supported(c: Circuit) -> None:
-    """Check that ``c`` is a buck or boost circuit this module builds.
+    """Check that ``c`` is a buck or boost circuit this module builds: one switch, one
+    freewheel (buck) or rectifier (boost), input and output capacitors.
 
     Raises
     ------
     NotImplementedError
-        Another topology.
+        A topology other than buck or boost.
     ValueError
-        Position counts or capacitors that do not fit the topology.
+        Missing positions or capacitors.
     """
     if c.topology not in TOPOLOGIES:
         raise NotImplementedError(f"buck/boost netlist for topology {c.topology!r} not "
