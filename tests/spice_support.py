@@ -1,5 +1,7 @@
-"""What the ngspice tests share: finding ngspice, keeping the netlists and results of a
-case, and comparing them with the references committed in tests/reference/spice/.
+"""What the ngspice tests share: finding ngspice, running a case (design -> engine ->
+circuit of one corner -> regulated simulation) once per module, keeping its netlist and
+results, comparing them with the references committed in tests/reference/spice/, and the
+conduction losses of a simulated circuit for the energy balance.
 
 - Without ngspice a module that imports :func:`ngspice` (an autouse fixture) is skipped,
   unless STRESSCHECK_REQUIRE_NGSPICE=1 (set by ``.ci/run``): then it fails.
@@ -14,8 +16,10 @@ import json
 import os
 from pathlib import Path
 
+import numpy as np
 import pytest
 
+from stresscheck.spice.circuit import SwitchModel, circuit_at
 from stresscheck.spice.run import find_ngspice
 
 REFERENCE = Path(__file__).parent / "reference" / "spice"
@@ -85,3 +89,110 @@ def outside_tolerance(comparisons) -> list[str]:
     return [f"{c.ref} {c.quantity}: computed {c.computed:.5g}, simulated "
             f"{c.simulated:.5g} ({100 * c.rel:+.2f} % vs ±{100 * c.tolerance:.0f} %)"
             for c in comparisons if not c.ok]
+
+
+def evaluate(folder: Path, design: dict, parts: dict):
+    """The engine's evaluation of ``design`` with ``parts``, written as files into
+    ``folder`` (tests/builders.py) and loaded like a user's design."""
+    from builders import write_case
+    from stresscheck.design import load_design
+    from stresscheck.engine import run
+
+    return run(load_design(write_case(folder, design, parts)))
+
+
+def corner_index(ev, line: str, load: str = "max") -> int:
+    """The first corner at low or high line (``line``: "low", "lowline", "high",
+    "highline"), at the largest (``load="max"``) or smallest output current and the
+    highest ambient temperature."""
+    c = ev.corners
+    v_in = c["input_voltage"]
+    v_line = v_in.min() if line.startswith("low") else v_in.max()
+    i_out = c["output_current"].max() if load == "max" else c["output_current"].min()
+    mask = ((v_in == v_line) & (c["output_current"] == i_out)
+            & (c["ambient_temperature"] == c["ambient_temperature"].max()))
+    return int(np.flatnonzero(mask)[0])
+
+
+def simulate_corner(ev, i: int, folder: Path, case: str):
+    """The circuit of corner ``i`` and its regulated simulation, keeping ``<case>.cir``
+    and ``<case>.json`` in :func:`keep_folder` of ``folder``.
+
+    Returns (circuit, SimResult, folder kept in)."""
+    from stresscheck.spice.simulate import simulate
+
+    target = keep_folder(folder) / f"{case}.cir"
+    c = circuit_at(ev, i)
+    return c, simulate(c, keep_netlist=target), target.parent
+
+
+def simulated_cases(run_case):
+    """A module-scoped fixture ``simulated(case)`` that returns ``run_case(case,
+    folder)`` (``folder`` a fresh temporary folder), running each case once per session:
+    the simulations are the slow part and several tests read the same one."""
+    cache: dict = {}
+
+    @pytest.fixture(scope="module")
+    def simulated(tmp_path_factory):
+        def get(case: str):
+            if case not in cache:
+                cache[case] = run_case(case, tmp_path_factory.mktemp(case))
+            return cache[case]
+        return get
+    return simulated
+
+
+def conduction_losses(c, r) -> float:
+    """Conduction losses of a simulated circuit from its measured currents and the
+    circuit's resistances [W].
+
+    Joule losses R·I_rms² in every MOSFET channel (R_DS(on)), inductor (DCR), capacitor
+    (ESR) and winding; straight-line diodes, body diodes included, v_f0·I_avg +
+    r_d·I_rms² (Erickson & Maksimović, Fundamentals of Power Electronics, 2nd ed.,
+    ch. 3 — from memory). The off resistance of the simulated switches is not counted.
+
+    Parameters
+    ----------
+    c : Circuit
+        The simulated circuit.
+    r : SimResult
+        Its measured positions and diagnostics [V, A].
+    """
+    pos, dg = r.positions, r.diagnostics
+    p = 0.0
+    for role, models in (("switch", c.switches), ("rectifier", c.rectifiers),
+                         ("freewheel", c.freewheels), ("reset", c.resets)):
+        for k, m in enumerate(models):
+            if isinstance(m, SwitchModel):  # channel, and body diode source -> drain
+                p += m.r_on * dg[f"{role}-{k}.i_channel_rms"] ** 2
+                p += (m.body.v_f0 * dg[f"{role}-{k}.i_body_avg"]
+                      + m.body.r_d * dg[f"{role}-{k}.i_body_rms"] ** 2)
+            else:
+                q = pos[(role, k)]
+                p += m.v_f0 * q["i_avg"] + m.r_d * q["i_rms"] ** 2
+    for k, dcr in enumerate((c.dcr_out, c.dcr_out_2)):
+        if ("inductor", k) in pos:
+            p += dcr * pos[("inductor", k)]["i_rms"] ** 2
+    banks = {"output-capacitor": [c.c_out], "input-capacitor": [c.c_in],
+             "split-capacitor": c.c_split}
+    for role, caps in banks.items():
+        for k, cap in enumerate(caps):
+            if (role, k) in pos:
+                p += cap.esr * pos[(role, k)]["i_ripple_rms"] ** 2
+    windings = {"primary": c.r_primary, "secondary": c.r_secondary, "reset": c.r_reset}
+    for name, value in dg.items():
+        if name.endswith(".i_rms"):  # windings only: primary[-k], secondary-k, reset
+            p += windings[name.split(".")[0].split("-")[0]] * value ** 2
+    return p
+
+
+def assert_energy_balance(case: str, c, r, extra: float = 0.0) -> None:
+    """Energy conservation in the simulation (common practice): p_in = p_out + the
+    conduction losses (:func:`conduction_losses`) + ``extra`` [W] + the damping-resistor
+    loss + the change of stored energy, to 1e-3 of p_in: the diode fit departs by ~3 mV
+    per decade of current from its straight line, and the steady state is accepted at
+    1e-4. The balance is printed (``pytest -s``)."""
+    balance = (r.p_out + conduction_losses(c, r) + extra + r.diagnostics["p_damp"]
+               + r.diagnostics["p_stored"])
+    print(f"\n{case}: energy balance {(r.p_in - balance) / r.p_in:+.2e} of p_in")
+    assert abs(r.p_in - balance) / r.p_in < 1e-3

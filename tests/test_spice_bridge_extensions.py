@@ -24,16 +24,12 @@ STRESSCHECK_UPDATE_REFERENCE=1 to rewrite them after a model change. Without ngs
 module is skipped, unless STRESSCHECK_REQUIRE_NGSPICE=1.
 """
 
-import numpy as np
 import pytest
 
-from builders import write_case
 from builders_bridge_ext import ext_design, ext_parts
-from spice_support import (assert_reference_reproduced, json_positions, keep_folder,
-                           ngspice, outside_tolerance)  # noqa: F401  (ngspice: autouse)
-from stresscheck.design import load_design
-from stresscheck.engine import run
-from stresscheck.spice.circuit import circuit_at
+from spice_support import (assert_reference_reproduced, corner_index, evaluate,
+                           json_positions, ngspice,  # noqa: F401  (ngspice: autouse)
+                           outside_tolerance, simulate_corner)
 from stresscheck.verify import TOL_AVERAGE, TOL_PEAK, compare_at
 
 # case -> (topology, rectifier, design options, part options, load): 48 V nominal bus
@@ -63,27 +59,15 @@ RUNS = [(name, line) for name in CASES for line in LINES.get(name, ["lowline", "
 COMMON = {"v_peak", "i_rms", "i_peak", "i_ripple_rms", "b_peak"}
 
 
-def corner_index(ev, line, load):
-    c = ev.corners
-    vin = c["input_voltage"].min() if line == "lowline" else c["input_voltage"].max()
-    io = c["output_current"].max() if load == "max" else c["output_current"].min()
-    mask = ((c["input_voltage"] == vin) & (c["output_current"] == io)
-            & (c["ambient_temperature"] == c["ambient_temperature"].max()))
-    return int(np.flatnonzero(mask)[0])
-
-
 @pytest.mark.ngspice
 @pytest.mark.parametrize("name,line", RUNS)
 def test_stresses_match_ngspice(tmp_path, name, line):
-    from stresscheck.spice.simulate import simulate
-
     topology, rectifier, opts, part_opts, load = CASES[name]
     parts = ext_parts(**{"c_in": "20 uF", **part_opts})
-    ev = run(load_design(write_case(tmp_path, ext_design(topology, rectifier, **opts), parts)))
+    ev = evaluate(tmp_path, ext_design(topology, rectifier, **opts), parts)
     i = corner_index(ev, line, load)
-    folder = keep_folder(tmp_path)
     stem = f"{name}-{line}"
-    sim = simulate(circuit_at(ev, i), keep_netlist=folder / f"{stem}.cir")
+    _, sim, _ = simulate_corner(ev, i, tmp_path, stem)
     comparisons = compare_at(ev, i, sim)
     compared = {c.quantity for c in comparisons}
     diode = not opts.get("sync")

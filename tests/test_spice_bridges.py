@@ -13,26 +13,17 @@ share of the output ripple, the exact shape of the diode curve.
 Each case is simulated at low and high line (full load, hot ambient).
 """
 
-import numpy as np
 import pytest
 
-from builders import bridge_design, bridge_parts, write_case
-from spice_support import ngspice, outside_tolerance  # noqa: F401  (ngspice: autouse)
-from stresscheck.design import load_design
-from stresscheck.engine import run
+from builders import bridge_design, bridge_parts
+from spice_support import (corner_index, evaluate, ngspice,  # noqa: F401  (autouse)
+                           outside_tolerance)
 from stresscheck.spice.circuit import circuit_at
 from stresscheck.verify import TOL_AVERAGE, TOL_PEAK, compare_at
 
 CASES = [("full-bridge", "center-tap"), ("full-bridge", "full-bridge"),
          ("half-bridge", "center-tap"), ("half-bridge", "full-bridge"),
          ("push-pull", "center-tap"), ("push-pull", "full-bridge")]
-
-
-def corner_index(ev, vin):
-    c = ev.corners
-    mask = ((c["input_voltage"] == vin) & (c["output_current"] == c["output_current"].max())
-            & (c["ambient_temperature"] == c["ambient_temperature"].max()))
-    return int(np.flatnonzero(mask)[0])
 
 
 @pytest.mark.ngspice
@@ -43,9 +34,8 @@ def test_stresses_match_ngspice(tmp_path, topology, rectifier, line):
 
     n_s = 4 if topology == "half-bridge" else 2
     parts = bridge_parts(n_s=n_s, c_in="20 uF")
-    ev = run(load_design(write_case(tmp_path, bridge_design(topology, rectifier), parts)))
-    vin = ev.corners["input_voltage"].min() if line == "low" else ev.corners["input_voltage"].max()
-    i = corner_index(ev, vin)
+    ev = evaluate(tmp_path, bridge_design(topology, rectifier), parts)
+    i = corner_index(ev, line)
     sim = simulate(circuit_at(ev, i))
     comparisons = compare_at(ev, i, sim)
     compared = {c.quantity for c in comparisons}

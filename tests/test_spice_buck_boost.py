@@ -18,16 +18,12 @@ module is skipped, unless STRESSCHECK_REQUIRE_NGSPICE=1.
 
 from __future__ import annotations
 
-import numpy as np
 import pytest
 
-from builders import write_case
 from builders_buck_boost import cell_design, cell_parts
-from spice_support import (assert_reference_reproduced, keep_folder, kept_results,
-                           ngspice, report_worst)  # noqa: F401  (ngspice: autouse)
-from stresscheck.design import load_design
-from stresscheck.engine import run
-from stresscheck.spice.circuit import circuit_at
+from spice_support import (assert_energy_balance, assert_reference_reproduced,
+                           corner_index, evaluate, kept_results, ngspice,  # noqa: F401
+                           report_worst, simulate_corner, simulated_cases)
 from stresscheck.verify import TOL_AVERAGE, TOL_PEAK, compare_at
 
 AMBIENT = {"min": "25 degC", "max": "25 degC"}
@@ -62,25 +58,14 @@ def design_and_parts(topology: str, sync: bool, io: str):
     return design, cell_parts(c_in="20 uF", c_out="200 uF")
 
 
-_RESULTS: dict = {}
+def run_case(case: str, folder):
+    topology, sync, io, line, _ = CASES[case]
+    ev = evaluate(folder, *design_and_parts(topology, sync, io))
+    i = corner_index(ev, line)
+    return (ev, i, *simulate_corner(ev, i, folder, case))
 
 
-@pytest.fixture(scope="module")
-def simulated(tmp_path_factory):
-    from stresscheck.spice.simulate import simulate
-
-    def get(case: str):
-        if case not in _RESULTS:
-            topology, sync, io, line, _ = CASES[case]
-            folder = tmp_path_factory.mktemp(case)
-            ev = run(load_design(write_case(folder, *design_and_parts(topology, sync, io))))
-            vin = ev.corners["input_voltage"]
-            i = int(np.argmin(vin) if line == "low" else np.argmax(vin))
-            target = keep_folder(folder) / f"{case}.cir"
-            c = circuit_at(ev, i)
-            _RESULTS[case] = (ev, i, c, simulate(c, keep_netlist=target), target.parent)
-        return _RESULTS[case]
-    return get
+simulated = simulated_cases(run_case)
 
 
 def passive_ref(case: str) -> str:
@@ -134,39 +119,10 @@ def test_negative_current_and_body_diodes(simulated):
     assert sim.positions[("freewheel", 0)]["v_peak"] > c.v_in
 
 
-def losses(c, r) -> float:
-    """Conduction losses from the measured currents and the circuit's resistances [W]
-    (Joule R·I_rms², straight-line diodes v_f0·I_avg + r_d·I_rms²; Erickson &
-    Maksimović, Fundamentals of Power Electronics, 2nd ed., ch. 3 — from memory)."""
-    pos, dg = r.positions, r.diagnostics
-    p = 0.0
-    fets = [("switch", 0, c.switches[0])]
-    passive = c.freewheels if c.topology == "buck" else c.rectifiers
-    role = "freewheel" if c.topology == "buck" else "rectifier"
-    if hasattr(passive[0], "r_on"):
-        fets.append((role, 0, passive[0]))
-    else:
-        q = pos[(role, 0)]
-        p += passive[0].v_f0 * q["i_avg"] + passive[0].r_d * q["i_rms"] ** 2
-    for name, k, sw in fets:
-        p += sw.r_on * dg[f"{name}-{k}.i_channel_rms"] ** 2
-        p += sw.body.v_f0 * dg[f"{name}-{k}.i_body_avg"] + sw.body.r_d * dg[
-            f"{name}-{k}.i_body_rms"] ** 2
-    p += c.dcr_out * pos[("inductor", 0)]["i_rms"] ** 2
-    p += c.c_out.esr * pos[("output-capacitor", 0)]["i_ripple_rms"] ** 2
-    p += c.c_in.esr * pos[("input-capacitor", 0)]["i_ripple_rms"] ** 2
-    return p
-
-
 @pytest.mark.parametrize("case", list(CASES))
 def test_simulation_energy_and_charge_balance(simulated, case):
     _, _, c, r, _ = simulated(case)
-    # energy conservation in the simulation: p_in = p_out + losses + damping loss +
-    # change of stored energy; 1e-3 as in the bridge smoke tests (the diode fit departs
-    # by ~3 mV per decade of current, the steady state is accepted at 1e-4)
-    balance = r.p_out + losses(c, r) + r.diagnostics["p_damp"] + r.diagnostics["p_stored"]
-    print(f"\n{case}: energy balance {(r.p_in - balance) / r.p_in:+.2e} of p_in")
-    assert abs(r.p_in - balance) / r.p_in < 1e-3
+    assert_energy_balance(case, c, r)
     # capacitor charge balance: mean currents ~0 against amperes of ripple
     for name, value in r.diagnostics.items():
         if "capacitor" in name and name.endswith(".i_mean"):

@@ -25,13 +25,11 @@ from pathlib import Path
 
 import pytest
 
-from builders import write_case
 from builders_flyback import flyback_design, flyback_parts
-from spice_support import (assert_reference_reproduced, keep_folder, kept_results,
-                           ngspice, report_worst)  # noqa: F401  (ngspice: autouse)
-from stresscheck.design import load_design
-from stresscheck.engine import run
-from stresscheck.spice.circuit import circuit_at
+from spice_support import (assert_energy_balance, assert_reference_reproduced, evaluate,
+                           kept_results, ngspice, report_worst,  # noqa: F401
+                           simulate_corner, simulated_cases)
+from stresscheck.spice.elements import R_OFF
 from stresscheck.verify import TOL_AVERAGE, TOL_PEAK, compare_at
 
 EXAMPLES = Path(__file__).parent.parent / "examples"
@@ -78,23 +76,14 @@ def design_and_parts(family: str, vin: str, io: str):
     return design, parts
 
 
-_RESULTS: dict = {}
+def run_case(case: str, folder):
+    ev = evaluate(folder, *design_and_parts(*ALL_CASES[case]))
+    assert ev.corners.size == 1
+    c, sim, kept = simulate_corner(ev, 0, folder, case)
+    return ev, c, sim, kept
 
 
-@pytest.fixture(scope="module")
-def simulated(tmp_path_factory):
-    from stresscheck.spice.simulate import simulate
-
-    def get(case: str):
-        if case not in _RESULTS:
-            folder = tmp_path_factory.mktemp(case)
-            ev = run(load_design(write_case(folder, *design_and_parts(*ALL_CASES[case]))))
-            assert ev.corners.size == 1
-            target = keep_folder(folder) / f"{case}.cir"
-            c = circuit_at(ev, 0)
-            _RESULTS[case] = (ev, c, simulate(c, keep_netlist=target), target.parent)
-        return _RESULTS[case]
-    return get
+simulated = simulated_cases(run_case)
 
 
 @pytest.mark.parametrize("case", list(CASES))
@@ -117,41 +106,21 @@ def test_engine_matches_ngspice(simulated, case):
     assert not bad, "\n".join(bad)
 
 
-def losses(ev, c, r) -> float:
-    """Conduction losses from the measured currents and the circuit's resistances [W]
-    (Joule R·I_rms², straight-line diodes v_f0·I_avg + r_d·I_rms²; Erickson &
-    Maksimović, Fundamentals of Power Electronics, 2nd ed., ch. 3 — from memory), and
-    the leakage of the simulated switch's off resistance R_OFF, v²/R_OFF: the drain sits
-    near the simulated v_peak while the rectifier conducts and at V_in in the idle
+def off_resistance_loss(ev, c, r) -> float:
+    """Leakage of the simulated switch's off resistance R_OFF, v²/R_OFF [W]: the drain
+    sits near the simulated v_peak while the rectifier conducts and at V_in in the idle
     interval (fractions of the period from the engine's grid). At 375 V that is about
-    1.5e-3 of the power, more than the balance allows, so it must be counted."""
-    from stresscheck.spice.elements import R_OFF
+    1.5e-3 of the power, more than the energy balance allows, so it must be counted."""
     from stresscheck.topologies.flyback import MASK_IDLE, MASK_OFF
-    pos, dg = r.positions, r.diagnostics
     share = ev.result.grid.fraction()[0]
-    v_off = pos[("switch", 0)]["v_peak"]
-    p_off = (share[MASK_OFF].sum() * v_off ** 2 + share[MASK_IDLE].sum() * c.v_in ** 2) / R_OFF
-    (sw,), (d,) = c.switches, c.rectifiers
-    p = sw.r_on * dg["switch-0.i_channel_rms"] ** 2
-    p += (sw.body.v_f0 * dg["switch-0.i_body_avg"]
-          + sw.body.r_d * dg["switch-0.i_body_rms"] ** 2)
-    q = pos[("rectifier", 0)]
-    p += d.v_f0 * q["i_avg"] + d.r_d * q["i_rms"] ** 2
-    p += c.c_out.esr * pos[("output-capacitor", 0)]["i_ripple_rms"] ** 2
-    p += c.c_in.esr * pos[("input-capacitor", 0)]["i_ripple_rms"] ** 2
-    p += c.r_primary * dg["primary.i_rms"] ** 2 + c.r_secondary * dg["secondary-1.i_rms"] ** 2
-    return p + p_off
+    v_off = r.positions[("switch", 0)]["v_peak"]
+    return (share[MASK_OFF].sum() * v_off ** 2 + share[MASK_IDLE].sum() * c.v_in ** 2) / R_OFF
 
 
 @pytest.mark.parametrize("case", list(CASES))
 def test_simulation_energy_and_charge_balance(simulated, case):
     ev, c, r, _ = simulated(case)
-    # energy conservation in the simulation: p_in = p_out + losses + damping loss +
-    # change of stored energy; 1e-3 as in the bridge smoke tests (the diode fit departs
-    # by ~3 mV per decade of current, the steady state is accepted at 1e-4)
-    balance = r.p_out + losses(ev, c, r) + r.diagnostics["p_damp"] + r.diagnostics["p_stored"]
-    print(f"\n{case}: energy balance {(r.p_in - balance) / r.p_in:+.2e} of p_in")
-    assert abs(r.p_in - balance) / r.p_in < 1e-3
+    assert_energy_balance(case, c, r, extra=off_resistance_loss(ev, c, r))
     # charge balance of the output bank: the rectifier's mean current is the load current
     # plus the bank's mean current; the load takes i_out within the 1e-4 regulation, and
     # the slow output mode still moves the bank by a few 1e-4 over the window
@@ -226,26 +195,15 @@ def test_sync_engine_matches_ngspice(simulated, case):
     assert not bad, "\n".join(bad)
 
 
-def sync_losses(ev, c, r) -> float:
-    """Conduction losses of the synchronous case from the measured currents [W] (as
-    :func:`losses`): both MOSFET channels R·I_ch,rms², body diodes v_f0·I_avg +
-    r_d·I_rms², capacitor ESRs, windings, and the off resistance R_OFF of each switch
-    while it blocks (the primary switch over the off-time near its v_peak, the rectifier
-    over the on-time near its v_peak)."""
-    from stresscheck.spice.elements import R_OFF
+def sync_off_resistance_loss(ev, r) -> float:
+    """Leakage of the off resistance R_OFF of each simulated switch while it blocks [W]:
+    the primary switch over the off-time near its v_peak, the rectifier over the on-time
+    near its v_peak."""
     from stresscheck.topologies.flyback import MASK_OFF, MASK_ON
-    pos, dg = r.positions, r.diagnostics
+    pos = r.positions
     share = ev.result.grid.fraction()[0]
-    p = (share[MASK_OFF].sum() * pos[("switch", 0)]["v_peak"] ** 2
-         + share[MASK_ON].sum() * pos[("rectifier", 0)]["v_peak"] ** 2) / R_OFF
-    for tag, fet in (("switch-0", c.switches[0]), ("rectifier-0", c.rectifiers[0])):
-        p += fet.r_on * dg[f"{tag}.i_channel_rms"] ** 2
-        p += (fet.body.v_f0 * dg[f"{tag}.i_body_avg"]
-              + fet.body.r_d * dg[f"{tag}.i_body_rms"] ** 2)
-    p += c.c_out.esr * pos[("output-capacitor", 0)]["i_ripple_rms"] ** 2
-    p += c.c_in.esr * pos[("input-capacitor", 0)]["i_ripple_rms"] ** 2
-    p += c.r_primary * dg["primary.i_rms"] ** 2 + c.r_secondary * dg["secondary-1.i_rms"] ** 2
-    return p
+    return (share[MASK_OFF].sum() * pos[("switch", 0)]["v_peak"] ** 2
+            + share[MASK_ON].sum() * pos[("rectifier", 0)]["v_peak"] ** 2) / R_OFF
 
 
 @pytest.mark.parametrize("case", list(SYNC_CASES))
@@ -258,10 +216,7 @@ def test_sync_simulation_energy_balance_and_textbook_voltages(simulated, case):
     simulated peak secondary current; 0.5 % on the switch, 1 % on the rectifier (bank
     ripple, the diode fit's ~3 mV/decade, the primary drop), as for the diode cases."""
     ev, c, r, _ = simulated(case)
-    balance = (r.p_out + sync_losses(ev, c, r) + r.diagnostics["p_damp"]
-               + r.diagnostics["p_stored"])
-    print(f"\n{case}: energy balance {(r.p_in - balance) / r.p_in:+.2e} of p_in")
-    assert abs(r.p_in - balance) / r.p_in < 1e-3
+    assert_energy_balance(case, c, r, extra=sync_off_resistance_loss(ev, r))
     # the primary switch's body diode never conducts (the current stays positive)
     assert r.diagnostics["switch-0.i_body_rms"] < 1e-6 * r.positions[("switch", 0)]["i_rms"]
     assert r.diagnostics["rectifier-0.i_body_avg"] > 0

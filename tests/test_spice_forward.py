@@ -18,17 +18,12 @@ module is skipped, unless STRESSCHECK_REQUIRE_NGSPICE=1.
 
 from __future__ import annotations
 
-import numpy as np
 import pytest
 
-from builders import write_case
 from builders_forward import forward_design, forward_parts
-from spice_support import (assert_reference_reproduced, keep_folder, kept_results,
-                           ngspice, report_worst)  # noqa: F401  (ngspice: autouse)
-from stresscheck.design import load_design
-from stresscheck.engine import run
-from stresscheck.spice.circuit import circuit_at
-from stresscheck.spice.circuit import SwitchModel
+from spice_support import (assert_energy_balance, assert_reference_reproduced,
+                           corner_index, evaluate, kept_results, ngspice,  # noqa: F401
+                           report_worst, simulate_corner, simulated_cases)
 from stresscheck.verify import TOL_AVERAGE, TOL_PEAK, compare_at
 
 AMBIENT = {"min": "25 degC", "max": "25 degC"}
@@ -82,26 +77,15 @@ def design_and_parts(topology: str, io: str, sync: bool = False, dead_time: str 
     return design, parts
 
 
-_RESULTS: dict = {}
+def run_case(case: str, folder):
+    topology, io, line = ALL_CASES[case]
+    ev = evaluate(folder, *design_and_parts(topology, io, sync=case in SYNC_CASES,
+                                            **SYNC_OPTIONS.get(case, {})))
+    i = corner_index(ev, line)
+    return (ev, i, *simulate_corner(ev, i, folder, case))
 
 
-@pytest.fixture(scope="module")
-def simulated(tmp_path_factory):
-    from stresscheck.spice.simulate import simulate
-
-    def get(case: str):
-        if case not in _RESULTS:
-            topology, io, line = ALL_CASES[case]
-            folder = tmp_path_factory.mktemp(case)
-            ev = run(load_design(write_case(folder, *design_and_parts(
-                topology, io, sync=case in SYNC_CASES, **SYNC_OPTIONS.get(case, {})))))
-            vin = ev.corners["input_voltage"]
-            i = int(np.argmin(vin) if line == "low" else np.argmax(vin))
-            target = keep_folder(folder) / f"{case}.cir"
-            c = circuit_at(ev, i)
-            _RESULTS[case] = (ev, i, c, simulate(c, keep_netlist=target), target.parent)
-        return _RESULTS[case]
-    return get
+simulated = simulated_cases(run_case)
 
 
 @pytest.mark.parametrize("case", list(ALL_CASES))
@@ -123,43 +107,10 @@ def test_engine_matches_ngspice(simulated, case):
     assert not bad, "\n".join(bad)
 
 
-def losses(c, r) -> float:
-    """Conduction losses from the measured currents and the circuit's resistances [W]
-    (Joule R·I_rms², straight-line diodes v_f0·I_avg + r_d·I_rms²; Erickson &
-    Maksimović, Fundamentals of Power Electronics, 2nd ed., ch. 3 — from memory)."""
-    pos, dg = r.positions, r.diagnostics
-    p = 0.0
-    for k, sw in enumerate(c.switches):
-        p += sw.r_on * dg[f"switch-{k}.i_channel_rms"] ** 2
-        p += sw.body.v_f0 * dg[f"switch-{k}.i_body_avg"] + sw.body.r_d * dg[
-            f"switch-{k}.i_body_rms"] ** 2
-    for role, diodes in (("rectifier", c.rectifiers), ("freewheel", c.freewheels),
-                         ("reset", c.resets)):
-        for k, d in enumerate(diodes):
-            if isinstance(d, SwitchModel):  # synchronous rectifier: channel + body diode
-                p += d.r_on * dg[f"{role}-{k}.i_channel_rms"] ** 2
-                p += d.body.v_f0 * dg[f"{role}-{k}.i_body_avg"] + d.body.r_d * dg[
-                    f"{role}-{k}.i_body_rms"] ** 2
-                continue
-            q = pos[(role, k)]
-            p += d.v_f0 * q["i_avg"] + d.r_d * q["i_rms"] ** 2
-    p += c.dcr_out * pos[("inductor", 0)]["i_rms"] ** 2
-    p += c.c_out.esr * pos[("output-capacitor", 0)]["i_ripple_rms"] ** 2
-    p += c.c_in.esr * pos[("input-capacitor", 0)]["i_ripple_rms"] ** 2
-    p += c.r_primary * dg["primary.i_rms"] ** 2 + c.r_secondary * dg["secondary-1.i_rms"] ** 2
-    p += c.r_reset * dg.get("reset.i_rms", 0.0) ** 2
-    return p
-
-
 @pytest.mark.parametrize("case", list(ALL_CASES))
 def test_simulation_energy_and_charge_balance(simulated, case):
     _, _, c, r, _ = simulated(case)
-    # energy conservation in the simulation: p_in = p_out + losses + damping loss +
-    # change of stored energy; 1e-3 as in the bridge smoke tests (the diode fit departs
-    # by ~3 mV per decade of current, the steady state is accepted at 1e-4)
-    balance = r.p_out + losses(c, r) + r.diagnostics["p_damp"] + r.diagnostics["p_stored"]
-    print(f"\n{case}: energy balance {(r.p_in - balance) / r.p_in:+.2e} of p_in")
-    assert abs(r.p_in - balance) / r.p_in < 1e-3
+    assert_energy_balance(case, c, r)
     # capacitor charge balance: inductor mean = load current + mean output-capacitor
     # current. The load current is i_out within the 1e-4 regulation tolerance; at light
     # load the output's R·C (milliseconds) still settles by a few 1e-4 over the window,

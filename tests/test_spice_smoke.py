@@ -13,8 +13,9 @@ import math
 import numpy as np
 import pytest
 
-from spice_support import (assert_reference_reproduced, keep_folder, kept_results,
-                           ngspice)  # noqa: F401  (ngspice: autouse, skips without it)
+from spice_support import (assert_energy_balance, assert_reference_reproduced,
+                           keep_folder, kept_results, ngspice,  # noqa: F401  (autouse)
+                           simulated_cases)
 from stresscheck.spice.circuit import CapacitorModel, Circuit, DiodeModel, SwitchModel
 
 # case -> (topology, rectifier, n_p, n_s); the half-bridge applies v_in/2 to its primary,
@@ -64,51 +65,15 @@ def make_circuit(case: str) -> Circuit:
     return c
 
 
-_RESULTS: dict = {}
-
-
-@pytest.fixture(scope="module")
-def simulated(tmp_path_factory):
+def run_case(case: str, folder):
     from stresscheck.spice.simulate import simulate
 
-    def get(case: str):
-        if case not in _RESULTS:
-            folder = keep_folder(tmp_path_factory.mktemp(case))
-            c = make_circuit(case)
-            _RESULTS[case] = (c, simulate(c, keep_netlist=folder / f"{case}.cir"), folder)
-        return _RESULTS[case]
-    return get
+    kept = keep_folder(folder)
+    c = make_circuit(case)
+    return c, simulate(c, keep_netlist=kept / f"{case}.cir"), kept
 
 
-def losses(c: Circuit, r) -> float:
-    """Conduction losses from the measured currents and the known resistances [W].
-
-    Joule losses R·I_rms^2 and the straight-line diode v_f0·I_avg + r_d·I_rms^2
-    (Erickson & Maksimovic, 2nd ed., ch. 3 -- from memory).
-    """
-    pos, dg = r.positions, r.diagnostics
-    p = 0.0
-    for k, sw in enumerate(c.switches):
-        p += sw.r_on * dg[f"switch-{k}.i_channel_rms"] ** 2
-        p += (sw.body.v_f0 * dg[f"switch-{k}.i_body_avg"]
-              + sw.body.r_d * dg[f"switch-{k}.i_body_rms"] ** 2)
-    for k, d in enumerate(c.rectifiers):
-        q = pos[("rectifier", k)]
-        p += d.v_f0 * q["i_avg"] + d.r_d * q["i_rms"] ** 2
-    p += c.dcr_out * pos[("inductor", 0)]["i_rms"] ** 2
-    caps = [("output-capacitor", 0, c.c_out)]
-    if c.topology == "half-bridge":
-        caps += [("split-capacitor", k, cap) for k, cap in enumerate(c.c_split)]
-    else:
-        caps += [("input-capacitor", 0, c.c_in)]
-    for role, k, cap in caps:
-        p += cap.esr * pos[(role, k)]["i_ripple_rms"] ** 2
-    for name, value in dg.items():
-        if name.startswith("primary") and name.endswith(".i_rms"):
-            p += c.r_primary * value ** 2
-        elif name.startswith("secondary") and name.endswith(".i_rms"):
-            p += c.r_secondary * value ** 2
-    return p
+simulated = simulated_cases(run_case)
 
 
 @pytest.mark.parametrize("case", list(CASES))
@@ -122,8 +87,7 @@ def test_regulation_and_energy_balance(simulated, case):
     # Energy conservation: p_in = p_out + losses + damping loss + change of stored energy
     # (common practice). It closes to a few 1e-6 here; 1e-3 leaves room for the diode
     # fit (±3 mV per decade of current) at other operating points.
-    balance = r.p_out + losses(c, r) + r.diagnostics["p_damp"] + r.diagnostics["p_stored"]
-    assert abs(r.p_in - balance) / r.p_in < 1e-3
+    assert_energy_balance(case, c, r)
 
 
 @pytest.mark.parametrize("case", list(CASES))
