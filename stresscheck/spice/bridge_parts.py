@@ -8,7 +8,8 @@ windings, and the flux-bias shift of the duty search. Element names as in
 from __future__ import annotations
 
 from .circuit import Circuit, SwitchModel
-from .elements import I_REF_FRACTION, R_FLOAT, Layout, NetlistWriter, period_ends
+from .elements import I_REF_FRACTION, R_FLOAT, Layout, NetlistWriter
+from .slow_modes import period_ends
 
 TOPOLOGIES = ("full-bridge", "half-bridge", "push-pull")
 RECTIFIERS = ("center-tap", "full-bridge", "current-doubler")
@@ -25,6 +26,10 @@ def check_supported(c: Circuit) -> None:
     ValueError
         Position counts, inductors or capacitors that do not fit; phase shift without
         leakage inductance; mixed diode and MOSFET rectifiers.
+
+    Parameters
+    ----------
+    c : Circuit
     """
     if c.topology not in TOPOLOGIES:
         raise NotImplementedError(f"ngspice netlist for topology {c.topology!r} not "
@@ -71,7 +76,16 @@ BRIDGE_LEGS = {"full-bridge": [("bus", "pa", "1"), ("pa", "0", "2"), ("bus", "pb
 def bridge_switches(d: NetlistWriter, c: Circuit, legs) -> None:
     """Switches with body diodes (anode at the source), a sense source in each drain
     lead; legs (drain, source, gate) in switch order. The body-diode fit is exact at
-    :data:`I_REF_FRACTION` of i_out reflected to the primary [A]."""
+    :data:`I_REF_FRACTION` of i_out reflected to the primary [A].
+
+    Parameters
+    ----------
+    d : NetlistWriter
+        The deck being written; the switches are appended to ``d.lay.switches``.
+    c : Circuit
+    legs : list of (str, str, str)
+        (drain node, source node, gate name) per switch, in switch order.
+    """
     i_body = I_REF_FRACTION * c.i_out * c.n_s / c.n_p
     for k, ((drain, source, gate), sw) in enumerate(zip(legs, c.switches)):
         d.lay.switches.append(d.switch(k, drain, source, gate, sw, i_body))
@@ -80,7 +94,22 @@ def bridge_switches(d: NetlistWriter, c: Circuit, legs) -> None:
 def bridge_transformer(d: NetlistWriter, c: Circuit, ic: dict, lead: str = "pa") -> str:
     """Transformer of the bridge family: reference winding (dot p1, undot pu) with Lm;
     E/F for the second primary half (push-pull). ``lead``: the full-bridge node that
-    feeds the primary sense. Returns pu."""
+    feeds the primary sense. Returns pu.
+
+    Parameters
+    ----------
+    d : NetlistWriter
+    c : Circuit
+    ic : dict
+        Initial state by IC key (``lm`` [A]).
+    lead : str
+        Full-bridge node feeding the primary sense.
+
+    Returns
+    -------
+    str
+        The undotted node ``pu`` of the reference winding.
+    """
     lay = d.lay
     if c.topology == "full-bridge":
         d.primary(lead, c.r_primary)
@@ -106,7 +135,20 @@ def bridge_secondaries(d: NetlistWriter, c: Circuit, pu: str):
     """Secondary windings of the bridge family (reference winding (p1, pu)); returns the
     rectifier positions (anode, cathode) and the indexes of group A (conducting with the
     first half-cycle). Center-tap and full-bridge rectifiers feed node ``rect``; the
-    current doubler's winding ends ``sa`` and ``sb`` feed its two inductors."""
+    current doubler's winding ends ``sa`` and ``sb`` feed its two inductors.
+
+    Parameters
+    ----------
+    d : NetlistWriter
+    c : Circuit
+    pu : str
+        Undotted node of the reference winding.
+
+    Returns
+    -------
+    (list of (str, str), tuple of int)
+        (anode, cathode) per rectifier position, and the positions of group A.
+    """
     ratio = c.n_s / c.n_p
 
     def winding(k: int, dot: str, undot: str) -> None:
@@ -147,7 +189,7 @@ def flux_bias_shift(c: Circuit, lay: Layout, w, duty: float) -> dict[str, float]
     c : Circuit
     lay : Layout
     w : measurement window
-        The end of the run (see :func:`stresscheck.spice.elements.period_ends`).
+        The end of the run (see :func:`stresscheck.spice.slow_modes.period_ends`).
     duty : float
         Duty ratio of the run [1].
 

@@ -2,8 +2,9 @@
 
 Topologies: ``full-bridge`` (PWM), ``half-bridge``, ``push-pull``; rectifiers
 ``center-tap`` and ``full-bridge`` here, phase shift, current doubler and synchronous
-rectifiers in :mod:`stresscheck.spice.deck_bridge_ext`; :data:`DECK` takes both. The models follow the project's ngspice notes
-(shared reference, "ngspice-notes"): ``S`` switches with an antiparallel body diode,
+rectifiers in :mod:`stresscheck.spice.deck_bridge_ext`; :data:`DECK` takes both. The
+models follow the project's ngspice notes (shared reference, "ngspice-notes"): ``S``
+switches with an antiparallel body diode,
 an ideal transformer built from controlled sources plus one magnetizing inductance,
 straight-line diodes (offset source + near-ideal diode + slope resistor), L with DCR,
 C with ESR and a 0 V sense source, and a DC input behind a damped choke.
@@ -38,8 +39,8 @@ from .bridge_parts import (BRIDGE_LEGS, bridge_secondaries, bridge_switches,
                            bridge_transformer, check_supported, flux_bias_shift)
 from .circuit import Circuit
 from .elements import (I_REF_FRACTION, T_EDGE, Deck, Layout, NetlistWriter,
-                       initial_conditions, mean_output_voltage, output_filter_shift,
-                       switching_period)
+                       initial_conditions, switching_period)
+from .slow_modes import mean_output_voltage, output_filter_shift
 
 def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
           ic: dict | None, choke: str) -> tuple[str, Layout]:
@@ -122,10 +123,27 @@ def duty_limit(c: Circuit) -> float:
 def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
     """Contract of :attr:`stresscheck.spice.elements.Deck.slow_mode_shift` for every bridge
     circuit: the output and input filter shift
-    (:func:`stresscheck.spice.elements.output_filter_shift`), the flux-bias shift
+    (:func:`stresscheck.spice.slow_modes.output_filter_shift`), the flux-bias shift
     (:func:`stresscheck.spice.bridge_parts.flux_bias_shift`) and the window's mean
     output voltage [A, V]; phase shift and current doubler in
-    :func:`stresscheck.spice.deck_bridge_ext.slow_mode_shift`."""
+    :func:`stresscheck.spice.deck_bridge_ext.slow_mode_shift`.
+
+    Parameters
+    ----------
+    c : Circuit
+    lay : Layout
+        Names of the netlist of the run.
+    w : measurement window
+        The end of the run.
+    duty : float
+        Duty ratio of the run [1].
+
+    Returns
+    -------
+    (dict, dict, float)
+        Filter shift and flux-bias shift by IC key [A, V]; estimated steady mean output
+        voltage of this duty [V].
+    """
     if deck_bridge_ext.own_shift(c):
         return deck_bridge_ext.slow_mode_shift(c, lay, w, duty)
     return (output_filter_shift(c, lay, w), flux_bias_shift(c, lay, w, duty),
@@ -136,7 +154,28 @@ def build_bridge(c: Circuit, duty: float, t_stop: float, t_measure: float,
                  ic: dict | None, choke: str) -> tuple[str, Layout]:
     """The bridge family's netlist (contract of :func:`build`): the extensions' deck for
     its circuits (:func:`stresscheck.spice.deck_bridge_ext.handles`), :func:`build` for
-    the others."""
+    the others.
+
+    Parameters
+    ----------
+    c : Circuit
+        The corner.
+    duty : float
+        On-time of each switch per period [1].
+    t_stop : float
+        Simulated time from the initial conditions [s].
+    t_measure : float
+        Length of the saved window at the end [s].
+    ic : dict or None
+        Initial state by IC key [A, V]; missing keys from the warm start.
+    choke : {"short", "real"}
+        Input choke.
+
+    Returns
+    -------
+    (str, Layout)
+        The deck text and its element names.
+    """
     if deck_bridge_ext.handles(c):
         return deck_bridge_ext.build(c, duty, t_stop, t_measure, ic, choke)
     return build(c, duty, t_stop, t_measure, ic, choke)

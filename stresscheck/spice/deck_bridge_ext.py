@@ -46,8 +46,9 @@ import numpy as np
 from .bridge_parts import (BRIDGE_LEGS, TOPOLOGIES, bridge_secondaries, bridge_switches,
                            bridge_transformer, check_supported, flux_bias_shift)
 from .circuit import Circuit, DiodeModel, SwitchModel
-from .elements import (I_REF_FRACTION, Layout, NetlistWriter, analytic_ic, initial_conditions,
-                       mean_output_voltage, output_filter_shift, switching_period)
+from .elements import (I_REF_FRACTION, Layout, NetlistWriter, analytic_ic,
+                       initial_conditions, switching_period)
+from .slow_modes import mean_output_voltage, output_filter_shift
 
 #: Integration of the phase-shift decks: backward Euler (first-order Gear). At the end of
 #: each commutation a rectifier turns off and the leakage, magnetizing and (reflected)
@@ -80,7 +81,19 @@ def handles(c: Circuit) -> bool:
 
 
 def body_window(c: Circuit, duty: float) -> float:
-    """Body-diode interval of a synchronous rectifier at each of its edges [s]."""
+    """Body-diode interval of a synchronous rectifier at each of its edges [s].
+
+    Parameters
+    ----------
+    c : Circuit
+    duty : float
+        Duty ratio [1].
+
+    Returns
+    -------
+    float
+        Body-diode interval [s].
+    """
     return min(c.dead_time, (0.5 - duty) / c.f_sw / 2)
 
 
@@ -88,7 +101,19 @@ def warm_start(c: Circuit, duty: float) -> dict[str, float]:
     """Initial conditions of a first run [A, V]: the bridge's, plus the second output
     inductor (current doubler: at t = 0 it has fallen for (1/2 − D)·Ts from its peak,
     V_o·(1 − D)·Ts/L2 above its valley) and the leakage current (phase shift: minus the
-    freewheeling primary current, n·i_L + i_m, of the previous half period)."""
+    freewheeling primary current, n·i_L + i_m, of the previous half period).
+
+    Parameters
+    ----------
+    c : Circuit
+    duty : float
+        Duty ratio [1].
+
+    Returns
+    -------
+    dict of str to float
+        State by IC key [A, V].
+    """
     ic = analytic_ic(c)
     ts = switching_period(c)
     if c.rectifier == "current-doubler":
@@ -102,7 +127,28 @@ def warm_start(c: Circuit, duty: float) -> dict[str, float]:
 def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
           ic: dict | None, choke: str) -> tuple[str, Layout]:
     """Netlist text and its :class:`Layout` (contract of
-    :func:`stresscheck.spice.deck_bridge.build`)."""
+    :func:`stresscheck.spice.deck_bridge.build`).
+
+    Parameters
+    ----------
+    c : Circuit
+        The corner.
+    duty : float
+        On-time of each switch per period [1].
+    t_stop : float
+        Simulated time from the initial conditions [s].
+    t_measure : float
+        Length of the saved window at the end [s].
+    ic : dict or None
+        Initial state by IC key [A, V]; missing keys from the warm start.
+    choke : {"short", "real"}
+        Input choke.
+
+    Returns
+    -------
+    (str, Layout)
+        The deck text and its element names.
+    """
     check_supported(c)
     ts = switching_period(c)
     ps = c.modulation == "phase-shift"
@@ -202,7 +248,7 @@ class _DoublerView:
 
 def _filters_consistent(c: Circuit, lay: Layout, w) -> dict[str, float]:
     """The output- and input-filter shift of
-    :func:`stresscheck.spice.elements.output_filter_shift` (same
+    :func:`stresscheck.spice.slow_modes.output_filter_shift` (same
     averaged equilibria, full bridge), with every period mean taken in a way that is
     exact for the integration method: under backward Euler the window's trapezoidal
     mean of a switched waveform is biased (an input-capacitor current that steps by
@@ -244,7 +290,16 @@ def _filters_consistent(c: Circuit, lay: Layout, w) -> dict[str, float]:
 
 def own_shift(c: Circuit) -> bool:
     """True where the bridge circuit ``c`` (phase shift, current doubler) needs this
-    module's :func:`slow_mode_shift`, False where the plain bridges' applies."""
+    module's :func:`slow_mode_shift`, False where the plain bridges' applies.
+
+    Parameters
+    ----------
+    c : Circuit
+
+    Returns
+    -------
+    bool
+    """
     return c.modulation == "phase-shift" or c.rectifier == "current-doubler"
 
 
@@ -259,6 +314,22 @@ def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
     backward Euler, see :data:`PS_METHOD`): the filter shift from
     :func:`_filters_consistent`; the flux-bias shift of the magnetizing current is also
     a shift of the primary (leakage) current, the secondary carrying no bias.
+
+    Parameters
+    ----------
+    c : Circuit
+    lay : Layout
+        Names of the netlist of the run.
+    w : measurement window
+        The end of the run.
+    duty : float
+        Duty ratio of the run [1].
+
+    Returns
+    -------
+    (dict, dict, float)
+        Filter shift and flux-bias shift by IC key [A, V]; estimated steady mean output
+        voltage of this duty [V].
     """
     v_steady = mean_output_voltage(w)
     if c.modulation == "phase-shift":

@@ -51,8 +51,9 @@ import math
 import numpy as np
 
 from .circuit import Circuit, DiodeModel, SwitchModel
-from .elements import (T_EDGE, Deck, Layout, NetlistWriter, initial_conditions, period_ends,
+from .elements import (T_EDGE, Deck, Layout, NetlistWriter, initial_conditions,
                        switching_period)
+from .slow_modes import period_ends
 
 TOPOLOGIES = ("flyback",)
 #: The magnetizing current counts as continuous when its minimum over a period is above
@@ -70,6 +71,10 @@ def check_supported(c: Circuit) -> None:
         synchronous rectifier without dead time.
     ValueError
         Position counts, magnetizing inductance or capacitors that do not fit.
+
+    Parameters
+    ----------
+    c : Circuit
     """
     if c.topology not in TOPOLOGIES:
         raise NotImplementedError(f"flyback netlist for topology {c.topology!r} not "
@@ -92,19 +97,48 @@ def check_supported(c: Circuit) -> None:
 
 
 def synchronous(c: Circuit) -> bool:
-    """True where the rectifier is a MOSFET (synchronous rectifier)."""
+    """True where the rectifier is a MOSFET (synchronous rectifier).
+
+    Parameters
+    ----------
+    c : Circuit
+
+    Returns
+    -------
+    bool
+    """
     return isinstance(c.rectifiers[0], SwitchModel)
 
 
 def dead_time(c: Circuit) -> float:
-    """Dead time between the two gates [s]; none with a diode rectifier."""
+    """Dead time between the two gates [s]; none with a diode rectifier.
+
+    Parameters
+    ----------
+    c : Circuit
+
+    Returns
+    -------
+    float
+        Dead time [s].
+    """
     return c.dead_time if synchronous(c) else 0.0
 
 
 def duty_limit(c: Circuit) -> float:
     """Largest duty ratio of the circuit [1]: the switch must open in each period for
     the secondary to conduct at all; less the gate edges and, synchronous, the two dead
-    times (the rectifier MOSFET keeps a minimal pulse)."""
+    times (the rectifier MOSFET keeps a minimal pulse).
+
+    Parameters
+    ----------
+    c : Circuit
+
+    Returns
+    -------
+    float
+        Largest duty ratio [1].
+    """
     if synchronous(c):
         return 1.0 - 2 * (dead_time(c) + 2 * T_EDGE) * c.f_sw
     return 1.0 - 4 * T_EDGE * c.f_sw
@@ -122,7 +156,28 @@ def _rectifier_ref_current(c: Circuit, duty: float) -> float:
 def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
           ic: dict | None, choke: str) -> tuple[str, Layout]:
     """Netlist text and its :class:`Layout` (contract of
-    :func:`stresscheck.spice.deck_bridge.build`)."""
+    :func:`stresscheck.spice.deck_bridge.build`).
+
+    Parameters
+    ----------
+    c : Circuit
+        The corner.
+    duty : float
+        On-time of each switch per period [1].
+    t_stop : float
+        Simulated time from the initial conditions [s].
+    t_measure : float
+        Length of the saved window at the end [s].
+    ic : dict or None
+        Initial state by IC key [A, V]; missing keys from the warm start.
+    choke : {"short", "real"}
+        Input choke.
+
+    Returns
+    -------
+    (str, Layout)
+        The deck text and its element names.
+    """
     check_supported(c)
     ts = switching_period(c)
     ic = initial_conditions(c, ic)
@@ -200,6 +255,22 @@ def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
       energy per cycle goes with v_bus², I_draw = v_bus·D²·Ts/(2·L_m) with v_bus, and the
       secondary's mean current I_s with v_bus²/(v + v_f0):
         C·dv/dt = I_s − v/R,  dI_s/dv_bus = 2·I_s/v_bus,  dI_s/dv = −I_s/(v + v_f0)
+
+    Parameters
+    ----------
+    c : Circuit
+    lay : Layout
+        Names of the netlist of the run.
+    w : measurement window
+        The end of the run.
+    duty : float
+        Duty ratio of the run [1].
+
+    Returns
+    -------
+    (dict, dict, float)
+        Filter shift and flux-bias shift by IC key [A, V]; estimated steady mean output
+        voltage of this duty [V].
     """
     ts = 1.0 / c.f_sw
     t1 = w.t[-1]

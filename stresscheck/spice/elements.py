@@ -20,8 +20,6 @@ import math
 from dataclasses import dataclass, field
 from typing import Callable
 
-import numpy as np
-
 from .circuit import Circuit, DiodeModel
 
 CHOKES = ("short", "real")
@@ -92,12 +90,34 @@ def diode_offset(d: DiodeModel, i_ref: float) -> float:
     The near-ideal diode adds n·V_T·ln(1 + I/I_S) (about 36 mV at 1 A); the offset is
     chosen so the drop is exactly ``v_f0 + r_d·i_ref`` at ``i_ref`` [A]; it departs by
     n·V_T·ln(10), about 3 mV, per decade of current away from it.
+
+    Parameters
+    ----------
+    d : DiodeModel
+        The straight-line diode (v_f0 [V], r_d [ohm]).
+    i_ref : float
+        Current at which the model is exact [A].
+
+    Returns
+    -------
+    float
+        DC value of the offset source [V].
     """
     return d.v_f0 - DIODE_N * V_THERMAL * math.log1p(max(i_ref, 1e-6) / DIODE_IS)
 
 
 def switching_period(c: Circuit) -> float:
-    """Switching period of each switch, 1/f_sw [s]."""
+    """Switching period of each switch, 1/f_sw [s].
+
+    Parameters
+    ----------
+    c : Circuit
+
+    Returns
+    -------
+    float
+        1/f_sw [s].
+    """
     return 1.0 / c.f_sw
 
 
@@ -108,6 +128,22 @@ def choke_values(c: Circuit, choke: str) -> tuple[float, float]:
     ``CHOKE_RESONANCE[choke]·f_sw``; the damping resistor equals the characteristic
     impedance sqrt(L/C), which damps that resonance to a quality factor near one.
     Half-bridge: C is the series value of the two split capacitors.
+
+    Parameters
+    ----------
+    c : Circuit
+    choke : {"short", "real"}
+        Which choke (:data:`CHOKE_RESONANCE`).
+
+    Returns
+    -------
+    (float, float)
+        Inductance [H] and damping resistance [ohm].
+
+    Raises
+    ------
+    ValueError
+        ``choke`` not in :data:`CHOKES`.
     """
     if choke not in CHOKES:
         raise ValueError(f"choke {choke!r} not known; valid: {', '.join(CHOKES)}")
@@ -122,7 +158,20 @@ def choke_values(c: Circuit, choke: str) -> tuple[float, float]:
 
 
 def analytic_ic(c: Circuit) -> dict[str, float]:
-    """Initial conditions of a first run from the analytic values [A, V]."""
+    """Initial conditions of a first run from the analytic values [A, V].
+
+    Parameters
+    ----------
+    c : Circuit
+        The corner with the engine's warm start (``i_l_start``, ``i_m_start`` [A]).
+
+    Returns
+    -------
+    dict of str to float
+        By IC key: inductor currents [A] (the choke's from the output power at an assumed
+        90 % efficiency), capacitor voltages [V] (output at v_out, input at v_in, split
+        capacitors at v_in/2).
+    """
     p_in = c.v_out * c.i_out / 0.9  # choke DC; the first runs correct it
     ic = {"lout": c.i_l_start, "lm": c.i_m_start, "lch": p_in / c.v_in, "cout": c.v_out}
     if c.topology == "half-bridge":
@@ -134,7 +183,21 @@ def analytic_ic(c: Circuit) -> dict[str, float]:
 
 def initial_conditions(c: Circuit, ic: dict | None, warm=analytic_ic) -> dict[str, float]:
     """Initial state of a run [A, V]: ``warm(c)`` (default :func:`analytic_ic`), the keys
-    of ``ic`` taking precedence."""
+    of ``ic`` taking precedence.
+
+    Parameters
+    ----------
+    c : Circuit
+    ic : dict or None
+        Known state by IC key [A, V].
+    warm : callable
+        ``warm(c) -> dict``, the state of a first run [A, V].
+
+    Returns
+    -------
+    dict of str to float
+        State by IC key [A, V].
+    """
     return {**warm(c), **(ic or {})}
 
 class NetlistWriter:
@@ -292,6 +355,21 @@ def diode_sweep_netlist(d: DiodeModel, i_ref: float, i_max: float, n: int = 50) 
 
     The diode's terminal voltage is ``v(a)``; offset chosen for ``i_ref`` [A] as in
     the converter netlists.
+
+    Parameters
+    ----------
+    d : DiodeModel
+    i_ref : float
+        Current at which the model's offset is fitted [A].
+    i_max : float
+        Largest current of the sweep [A].
+    n : int
+        Number of sweep steps.
+
+    Returns
+    -------
+    str
+        The deck, ending with ``.end``.
     """
     deck = NetlistWriter()
     deck.add("* straight-line diode model, DC sweep")
@@ -331,80 +409,3 @@ class Deck:
     build: Callable
     duty_limit: Callable
     slow_mode_shift: Callable
-
-
-def period_ends(w, x: np.ndarray, ts: float) -> tuple[float, float]:
-    """The value of ``x`` at the end of a run and its change per period.
-
-    Parameters
-    ----------
-    w : measurement window
-        ``mean_between(x, t0, t1)`` and times ``t`` [s] (``simulate`` passes its window).
-    x : numpy.ndarray
-        Samples of one quantity over the window [V or A].
-    ts : float
-        Switching period [s].
-
-    Returns
-    -------
-    (float, float)
-        The last period's mean extrapolated half a period with the period before, and
-        the last period's mean less the one before [V or A].
-    """
-    t1 = w.t[-1]
-    last = w.mean_between(x, t1 - ts, t1)
-    before = w.mean_between(x, t1 - 2 * ts, t1 - ts)
-    return 1.5 * last - 0.5 * before, last - before
-
-
-def output_filter_shift(c: Circuit, lay: Layout, w) -> dict[str, float]:
-    """Shift of the output L-C and input filter to their averaged equilibrium [A, V].
-
-    For decks whose output inductor ``lout`` is fed from node ``rect`` (bridges,
-    forward, buck). With a light load the L-C filter rings for hundreds of periods
-    (Q = R·sqrt(C/L) reaches 10 or more). Over whole periods its averaged equilibrium
-    is i_L = <v_rect>/(R_load + DCR), v_C = R_load·i_L with the rectified voltage
-    <v_rect> of the last period (scaled as if the bus sat at v_in); the drops' change
-    with current is left to the next run. The bus settles at v_in, the choke current at
-    the converter's mean draw scaled by the same ratio.
-
-    Parameters
-    ----------
-    c : Circuit
-    lay : Layout
-        Names of the netlist of the run.
-    w : measurement window
-        The end of the run (see :func:`period_ends`).
-
-    Returns
-    -------
-    dict of str to float
-        Shift by IC key: ``lout``, ``lch`` [A], ``cout`` and ``cin`` (half-bridge
-        ``ctop`` and ``cbot``, half each) [V].
-    """
-    ts = 1.0 / c.f_sw
-    t1 = w.t[-1]
-    v_bus = w["v(bus)"]
-    split = ("split-capacitor", 0) in lay.caps
-    cap_sense = lay.caps[("split-capacitor", 0) if split else ("input-capacitor", 0)][0]
-    i_choke = w["i(lch)"]
-    i_draw = i_choke + (c.v_in - v_bus) / lay.r_damp - w[f"i({cap_sense})"]
-    scale = c.v_in / w.mean_between(v_bus, t1 - ts, t1)  # v_rect follows the bus
-    _, _, _, cp, cm = lay.caps[("output-capacitor", 0)]
-    i_l = period_ends(w, w["i(lout)"], ts)[0]
-    i_eq = scale * w.mean_between(w["v(rect)"], t1 - ts, t1) / (lay.r_load + c.dcr_out)
-    filters = {"lout": i_eq - i_l,
-               "cout": lay.r_load * i_eq - period_ends(w, w[f"v({cp})"] - w[f"v({cm})"], ts)[0],
-               "lch": period_ends(w, i_draw, ts)[0] * i_eq / i_l - period_ends(w, i_choke, ts)[0]}
-    dv_bus = c.v_in - period_ends(w, v_bus, ts)[0]
-    if split:
-        filters.update(ctop=dv_bus / 2, cbot=dv_bus / 2)
-    else:
-        filters["cin"] = dv_bus
-    return filters
-
-
-def mean_output_voltage(w) -> float:
-    """Mean output voltage over the window [V], the steady-state estimate of decks whose
-    filters :func:`output_filter_shift` settles."""
-    return w.mean(w["v(out)"])

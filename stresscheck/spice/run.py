@@ -34,7 +34,23 @@ def _with_control(text: str) -> str:
 
 
 def read_raw(path: Path) -> dict[str, np.ndarray]:
-    """Vectors of an ngspice binary raw file (one real plot), by lower-case name."""
+    """Vectors of an ngspice binary raw file (one real plot), by lower-case name.
+
+    Parameters
+    ----------
+    path : Path
+        The raw file.
+
+    Returns
+    -------
+    dict of str to numpy.ndarray
+        Every vector by lower-case name [s, V, A].
+
+    Raises
+    ------
+    SimulationError
+        Not a binary raw file of one real plot, or no data.
+    """
     data = path.read_bytes()
     marker = data.find(b"Binary:\n")
     if marker < 0:

@@ -91,13 +91,50 @@ class Window:
         return np.concatenate(([x[k - 1] + w * (x[k] - x[k - 1])], x[k:]))
 
     def mean(self, x: np.ndarray) -> float:
+        """Trapezoidal mean over the window.
+
+        Parameters
+        ----------
+        x : numpy.ndarray
+            Samples of one quantity on the window's time points [V or A].
+
+        Returns
+        -------
+        float
+            Mean [V or A].
+        """
         return float(np.dot(self._dt, 0.5 * (x[1:] + x[:-1])) / self.length)  # trapezoidal
 
     def rms(self, x: np.ndarray) -> float:
+        """Trapezoidal rms over the window.
+
+        Parameters
+        ----------
+        x : numpy.ndarray
+            Samples of one quantity on the window's time points [V or A].
+
+        Returns
+        -------
+        float
+            Rms value [V or A].
+        """
         return math.sqrt(max(self.mean(x * x), 0.0))
 
     def mean_between(self, x: np.ndarray, t0: float, t1: float) -> float:
-        """Mean over [t0, t1] inside the window (cumulative integral interpolated)."""
+        """Mean over [t0, t1] inside the window (cumulative integral interpolated).
+
+        Parameters
+        ----------
+        x : numpy.ndarray
+            Samples of one quantity on the window's time points [V or A].
+        t0, t1 : float
+            Interval inside the window [s].
+
+        Returns
+        -------
+        float
+            Mean [V or A].
+        """
         cum = np.concatenate(([0.0], np.cumsum(self._dt * 0.5 * (x[1:] + x[:-1]))))
         return float((np.interp(t1, self.t, cum) - np.interp(t0, self.t, cum)) / (t1 - t0))
 
@@ -317,7 +354,20 @@ def simulate(c: Circuit, *, keep_netlist: Path | None = None) -> SimResult:
 
 
 def result_json(c: Circuit, res: SimResult) -> dict:
-    """JSON-ready record of a simulation: the circuit and everything measured."""
+    """JSON-ready record of a simulation: the circuit and everything measured.
+
+    Parameters
+    ----------
+    c : Circuit
+    res : SimResult
+
+    Returns
+    -------
+    dict
+        ``schema``, ``circuit`` (every field of :class:`Circuit`), ``duty`` [1],
+        ``v_out_mean`` [V], ``p_in`` and ``p_out`` [W], ``positions`` keyed ``role:index``
+        [V, A, T], ``measured_periods`` and ``diagnostics`` (without the wall time).
+    """
     return {"schema": "stresscheck.spice-result/1", "circuit": asdict(c),
             "duty": res.duty, "v_out_mean": res.v_out_mean, "p_in": res.p_in,
             "p_out": res.p_out,
