@@ -73,3 +73,18 @@ def test_reference_netlist_rebuilt(case):
     rebuilt, _ = build_deck(c, data["duty"], RUN_PERIODS * ts, MEASURED_PERIODS * ts,
                             initial_state(text), "real")
     assert rebuilt == text
+
+
+def test_every_topology_has_one_deck():
+    """The registry covers exactly the closed set of topology names (schema.py)."""
+    from stresscheck import schema
+    from stresscheck.spice.decks import DECKS
+
+    assert set(DECKS) == set(schema.TOPOLOGIES)
+
+
+def test_unknown_topology_names_the_valid_ones():
+    from stresscheck.spice.decks import DECKS, deck_for
+
+    with pytest.raises(NotImplementedError, match="valid: " + ", ".join(DECKS)):
+        deck_for("resonant-llc")

@@ -36,9 +36,9 @@ class Circuit:
     """One corner of a converter.
 
     Conventions
-    - ``duty`` is the on-time of each switch as a fraction of its switching period 1/fs.
+    - ``duty`` is the on-time of each switch as a fraction of its switching period 1/f_sw.
       For the bridge family each switch (full-bridge: each diagonal pair) conducts once per
-      period, so the output inductor sees 2·fs.
+      period, so the output inductor sees 2·f_sw.
     - Turns: push-pull ``n_p`` is per primary half; center-tap ``n_s`` per secondary half.
     - ``l_m`` is the magnetizing inductance referred to ``n_p`` turns (push-pull: across
       one primary half).

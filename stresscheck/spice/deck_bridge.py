@@ -4,10 +4,10 @@ Topologies: ``full-bridge`` (PWM), ``half-bridge``, ``push-pull``; rectifiers
 ``center-tap`` and ``full-bridge`` here, phase shift, current doubler and synchronous
 rectifiers in :mod:`stresscheck.spice.deck_bridge_ext`; :data:`DECK` takes both. The
 models follow the project's ngspice notes (shared reference, "ngspice-notes"): ``S``
-switches with an antiparallel body diode,
-an ideal transformer built from controlled sources plus one magnetizing inductance,
-straight-line diodes (offset source + near-ideal diode + slope resistor), L with DCR,
-C with ESR and a 0 V sense source, and a DC input behind a damped choke.
+switches with an antiparallel body diode, an ideal transformer built from controlled
+sources plus one magnetizing inductance, straight-line diodes (offset source +
+near-ideal diode + slope resistor), L with DCR, C with ESR and a 0 V sense source, and
+a DC input behind a damped choke.
 
 Names shared with the measurement code (all lower case, as ngspice reports them):
 

@@ -288,10 +288,10 @@ def boost_slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
              cap_voltage(("output-capacitor", 0))]
     x, rate = np.array([end_and_rate(v) for v in waves]).T
     v_bus, v_c = last(waves[1]), last(waves[3])
-    ip, il = last(i_p), last(i_l)
-    continuous = synchronous(c) or float(np.min(i_l[w.t >= t1 - ts])) > 0.01 * il
+    i_p_avg, i_l_avg = last(i_p), last(i_l)
+    continuous = synchronous(c) or float(np.min(i_l[w.t >= t1 - ts])) > 0.01 * i_l_avg
     if continuous:
-        k, g = last(w["v(sw)"]) / last(w["v(out)"]), ip / il
+        k, g = last(w["v(sw)"]) / last(w["v(out)"]), i_p_avg / i_l_avg
         r_s = c.dcr_out + duty * c.switches[0].r_on + (1 - duty) * r_p
         a = np.array([[0, -1 / l_ch, 0, 0],
                       [1 / c_in, -1 / (r_d * c_in), -1 / c_in, 0],
@@ -299,8 +299,9 @@ def boost_slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
                       [0, 0, g / c_out, -1 / (r * c_out)]])
         keep = [0, 1, 2, 3]
     else:
-        d_il = (il * (1 / v_bus + 1 / (v_c - v_bus)), il * (1 / v_c - 1 / (v_c - v_bus)))
-        d_ip = (ip * (2 / v_bus + 1 / (v_c - v_bus)), -ip / (v_c - v_bus))
+        d_il = (i_l_avg * (1 / v_bus + 1 / (v_c - v_bus)),
+                i_l_avg * (1 / v_c - 1 / (v_c - v_bus)))
+        d_ip = (i_p_avg * (2 / v_bus + 1 / (v_c - v_bus)), -i_p_avg / (v_c - v_bus))
         a = np.array([[0, -1 / l_ch, 0],
                       [1 / c_in, (-1 / r_d - d_il[0]) / c_in, -d_il[1] / c_in],
                       [0, d_ip[0] / c_out, (d_ip[1] - 1 / r) / c_out]])

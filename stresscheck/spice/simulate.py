@@ -228,10 +228,10 @@ def measure(c: Circuit, lay: Layout, vec: dict[str, np.ndarray], t_a: float,
                      ("split-capacitor", 1): ("cbot", c.c_split[1])})
     final, e_change = {}, 0.0
     for key, (_, _, _, cp, cm) in lay.caps.items():
-        vc = v(cp) - v(cm)
+        v_c = v(cp) - v(cm)
         ic_key, cap = caps[key]
-        final[ic_key] = float(vc[-1])
-        e_change += 0.5 * cap.capacitance * (vc[-1] ** 2 - vc[0] ** 2)
+        final[ic_key] = float(v_c[-1])
+        e_change += 0.5 * cap.capacitance * (v_c[-1] ** 2 - v_c[0] ** 2)
     for name, ind in (("lout", c.l_out), ("lm", lay.l_m), ("lch", lay.l_choke),
                       *lay.inductors.items()):
         if f"i({name})" not in vec:
