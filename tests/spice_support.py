@@ -3,6 +3,17 @@ circuit of one corner -> regulated simulation) once per module, keeping its netl
 results, comparing them with the references committed in tests/reference/spice/, and the
 conduction losses of a simulated circuit for the energy balance.
 
+The comparison tests (test_spice_<family>.py): each case is a small design evaluated by
+the engine; the circuit of one corner (the engine's R_DS(on), duty and part values,
+:func:`stresscheck.spice.circuit.circuit_at`) is simulated to its regulated steady state
+(:func:`stresscheck.spice.simulate.simulate`) and every stress is compared with
+``stresscheck.verify.compare_at``, the comparison of ``stresscheck verify``:
+  voltages, averages and rms values  2 %
+  peaks and capacitor ripple         4 %
+(the tolerances of stresscheck.verify; never widened in a test). Measured worst relative
+differences are printed with ``pytest -s``. The netlists and results of each case are
+committed in tests/reference/spice/ (file name = case).
+
 - Without ngspice a module that imports :func:`ngspice` (an autouse fixture) is skipped,
   unless STRESSCHECK_REQUIRE_NGSPICE=1 (set by ``.ci/run``): then it fails.
 - With STRESSCHECK_UPDATE_REFERENCE=1 a case keeps its netlist and results in

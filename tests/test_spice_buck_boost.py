@@ -2,18 +2,7 @@
 versions in CCM and DCM, synchronous versions with dead time (forced continuous, the
 inductor current going negative at high line).
 
-Each case is a small design (tests/builders_buck_boost.py) evaluated by the engine; the
-circuit of the corner (the engine's R_DS(on), duty and part values) is simulated to its
-regulated steady state (stresscheck.spice.simulate) and every stress is compared with
-``stresscheck.verify.compare_at``, the comparison of ``stresscheck verify``:
-  voltages, averages and rms values  2 %
-  peaks and capacitor ripple         4 %
-(the tolerances of stresscheck.verify; never widened here). Measured worst relative
-differences are printed with ``pytest -s``.
-
-The netlists and results of each case are committed in tests/reference/spice/ (file name =
-case); rerun with STRESSCHECK_UPDATE_REFERENCE=1 to rewrite them. Without ngspice the
-module is skipped, unless STRESSCHECK_REQUIRE_NGSPICE=1.
+Method, tolerances and reference files: tests/spice_support.py.
 """
 
 from __future__ import annotations

@@ -26,10 +26,6 @@ def check_supported(c: Circuit) -> None:
     ValueError
         Position counts, inductors or capacitors that do not fit; phase shift without
         leakage inductance; mixed diode and MOSFET rectifiers.
-
-    Parameters
-    ----------
-    c : Circuit
     """
     if c.topology not in TOPOLOGIES:
         raise NotImplementedError(f"ngspice netlist for topology {c.topology!r} not "

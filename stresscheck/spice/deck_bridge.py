@@ -106,17 +106,7 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
 
 def duty_limit(c: Circuit) -> float:
     """Largest duty ratio that keeps the two half-cycles apart [1]: half the period less
-    the dead time and the gate edges.
-
-    Parameters
-    ----------
-    c : Circuit
-
-    Returns
-    -------
-    float
-        0.5 − (t_d + 2·t_edge)·f_sw [1].
-    """
+    the dead time and the gate edges."""
     return 0.5 - (c.dead_time + 2 * T_EDGE) * c.f_sw
 
 
@@ -128,21 +118,8 @@ def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
     output voltage [A, V]; phase shift and current doubler in
     :func:`stresscheck.spice.deck_bridge_ext.slow_mode_shift`.
 
-    Parameters
-    ----------
-    c : Circuit
-    lay : Layout
-        Names of the netlist of the run.
-    w : measurement window
-        The end of the run.
-    duty : float
-        Duty ratio of the run [1].
-
-    Returns
-    -------
-    (dict, dict, float)
-        Filter shift and flux-bias shift by IC key [A, V]; estimated steady mean output
-        voltage of this duty [V].
+    Parameters and returns with their units:
+    :attr:`stresscheck.spice.elements.Deck.slow_mode_shift`.
     """
     if deck_bridge_ext.own_shift(c):
         return deck_bridge_ext.slow_mode_shift(c, lay, w, duty)
@@ -156,25 +133,7 @@ def build_bridge(c: Circuit, duty: float, t_stop: float, t_measure: float,
     its circuits (:func:`stresscheck.spice.deck_bridge_ext.handles`), :func:`build` for
     the others.
 
-    Parameters
-    ----------
-    c : Circuit
-        The corner.
-    duty : float
-        On-time of each switch per period [1].
-    t_stop : float
-        Simulated time from the initial conditions [s].
-    t_measure : float
-        Length of the saved window at the end [s].
-    ic : dict or None
-        Initial state by IC key [A, V]; missing keys from the warm start.
-    choke : {"short", "real"}
-        Input choke.
-
-    Returns
-    -------
-    (str, Layout)
-        The deck text and its element names.
+    Parameters and returns with their units: :attr:`stresscheck.spice.elements.Deck.build`.
     """
     if deck_bridge_ext.handles(c):
         return deck_bridge_ext.build(c, duty, t_stop, t_measure, ic, choke)

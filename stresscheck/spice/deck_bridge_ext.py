@@ -65,35 +65,13 @@ def _sync(c: Circuit) -> bool:
 
 def handles(c: Circuit) -> bool:
     """Whether ``c`` is a bridge circuit of this module (not of the plain
-    :func:`stresscheck.spice.deck_bridge.build`).
-
-    Parameters
-    ----------
-    c : Circuit
-
-    Returns
-    -------
-    bool
-        Phase shift, a current doubler or synchronous rectifiers.
-    """
+    :func:`stresscheck.spice.deck_bridge.build`)."""
     return c.topology in TOPOLOGIES and (getattr(c, "modulation", "pwm") == "phase-shift"
                                          or c.rectifier == "current-doubler" or _sync(c))
 
 
 def body_window(c: Circuit, duty: float) -> float:
-    """Body-diode interval of a synchronous rectifier at each of its edges [s].
-
-    Parameters
-    ----------
-    c : Circuit
-    duty : float
-        Duty ratio [1].
-
-    Returns
-    -------
-    float
-        Body-diode interval [s].
-    """
+    """Body-diode interval of a synchronous rectifier at each of its edges [s]."""
     return min(c.dead_time, (0.5 - duty) / c.f_sw / 2)
 
 
@@ -101,19 +79,7 @@ def warm_start(c: Circuit, duty: float) -> dict[str, float]:
     """Initial conditions of a first run [A, V]: the bridge's, plus the second output
     inductor (current doubler: at t = 0 it has fallen for (1/2 − D)·Ts from its peak,
     V_o·(1 − D)·Ts/L2 above its valley) and the leakage current (phase shift: minus the
-    freewheeling primary current, n·i_L + i_m, of the previous half period).
-
-    Parameters
-    ----------
-    c : Circuit
-    duty : float
-        Duty ratio [1].
-
-    Returns
-    -------
-    dict of str to float
-        State by IC key [A, V].
-    """
+    freewheeling primary current, n·i_L + i_m, of the previous half period)."""
     ic = analytic_ic(c)
     ts = switching_period(c)
     if c.rectifier == "current-doubler":
@@ -126,29 +92,8 @@ def warm_start(c: Circuit, duty: float) -> dict[str, float]:
 
 def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
           ic: dict | None, choke: str) -> tuple[str, Layout]:
-    """Netlist text and its :class:`Layout` (contract of
-    :func:`stresscheck.spice.deck_bridge.build`).
-
-    Parameters
-    ----------
-    c : Circuit
-        The corner.
-    duty : float
-        On-time of each switch per period [1].
-    t_stop : float
-        Simulated time from the initial conditions [s].
-    t_measure : float
-        Length of the saved window at the end [s].
-    ic : dict or None
-        Initial state by IC key [A, V]; missing keys from the warm start.
-    choke : {"short", "real"}
-        Input choke.
-
-    Returns
-    -------
-    (str, Layout)
-        The deck text and its element names.
-    """
+    """The netlist of a phase-shift, current-doubler or synchronous bridge corner, and its
+    :class:`Layout` (parameters, returns, units: :attr:`.elements.Deck.build`)."""
     check_supported(c)
     ts = switching_period(c)
     ps = c.modulation == "phase-shift"
@@ -290,16 +235,7 @@ def _filters_consistent(c: Circuit, lay: Layout, w) -> dict[str, float]:
 
 def own_shift(c: Circuit) -> bool:
     """True where the bridge circuit ``c`` (phase shift, current doubler) needs this
-    module's :func:`slow_mode_shift`, False where the plain bridges' applies.
-
-    Parameters
-    ----------
-    c : Circuit
-
-    Returns
-    -------
-    bool
-    """
+    module's :func:`slow_mode_shift`, False where the plain bridges' applies."""
     return c.modulation == "phase-shift" or c.rectifier == "current-doubler"
 
 
@@ -315,21 +251,8 @@ def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
     :func:`_filters_consistent`; the flux-bias shift of the magnetizing current is also
     a shift of the primary (leakage) current, the secondary carrying no bias.
 
-    Parameters
-    ----------
-    c : Circuit
-    lay : Layout
-        Names of the netlist of the run.
-    w : measurement window
-        The end of the run.
-    duty : float
-        Duty ratio of the run [1].
-
-    Returns
-    -------
-    (dict, dict, float)
-        Filter shift and flux-bias shift by IC key [A, V]; estimated steady mean output
-        voltage of this duty [V].
+    Parameters and returns with their units:
+    :attr:`stresscheck.spice.elements.Deck.slow_mode_shift`.
     """
     v_steady = mean_output_voltage(w)
     if c.modulation == "phase-shift":

@@ -60,10 +60,6 @@ def check_supported(c: Circuit) -> None:
         A topology other than buck or boost.
     ValueError
         Missing positions or capacitors.
-
-    Parameters
-    ----------
-    c : Circuit
     """
     if c.topology not in TOPOLOGIES:
         raise NotImplementedError(f"buck/boost netlist for topology {c.topology!r} not "
@@ -78,45 +74,17 @@ def check_supported(c: Circuit) -> None:
 
 
 def passive_position(c: Circuit):
-    """The freewheel (buck) or rectifier (boost) model: DiodeModel or SwitchModel.
-
-    Parameters
-    ----------
-    c : Circuit
-
-    Returns
-    -------
-    DiodeModel or SwitchModel
-    """
+    """The freewheel (buck) or rectifier (boost) model: DiodeModel or SwitchModel."""
     return c.freewheels[0] if c.topology == "buck" else c.rectifiers[0]
 
 
 def synchronous(c: Circuit) -> bool:
-    """True where the freewheel (buck) or rectifier (boost) is a MOSFET.
-
-    Parameters
-    ----------
-    c : Circuit
-
-    Returns
-    -------
-    bool
-    """
+    """True where the freewheel (buck) or rectifier (boost) is a MOSFET."""
     return isinstance(passive_position(c), SwitchModel)
 
 
 def dead_time(c: Circuit) -> float:
-    """Dead time between the two gates [s]; none with a diode.
-
-    Parameters
-    ----------
-    c : Circuit
-
-    Returns
-    -------
-    float
-        Dead time [s].
-    """
+    """Dead time between the two gates [s]; none with a diode."""
     return c.dead_time if synchronous(c) else 0.0
 
 
@@ -124,58 +92,20 @@ def duty_limit(c: Circuit) -> float:
     """Largest duty ratio of the switch [1]: the period less two dead times and the gate
     edges (the synchronous MOSFET keeps a minimal pulse).
 
-    Parameters
-    ----------
-    c : Circuit
-
-    Returns
-    -------
-    float
-        Largest duty ratio [1].
+    Parameters and returns with their units: :attr:`stresscheck.spice.elements.Deck.duty_limit`.
     """
     return 1.0 - 2 * (dead_time(c) + T_EDGE) * c.f_sw
 
 
 def inductor_current(c: Circuit) -> float:
-    """Mean inductor current, lossless [A]: buck I_o, boost I_o·V_o/V_in.
-
-    Parameters
-    ----------
-    c : Circuit
-
-    Returns
-    -------
-    float
-        Mean inductor current [A].
-    """
+    """Mean inductor current, lossless [A]: buck I_o, boost I_o·V_o/V_in."""
     return c.i_out if c.topology == "buck" else c.i_out * c.v_out / c.v_in
 
 
 def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
           ic: dict | None, choke: str) -> tuple[str, Layout]:
-    """Netlist text and its :class:`Layout` (contract of
-    :func:`stresscheck.spice.deck_bridge.build`).
-
-    Parameters
-    ----------
-    c : Circuit
-        The corner.
-    duty : float
-        On-time of each switch per period [1].
-    t_stop : float
-        Simulated time from the initial conditions [s].
-    t_measure : float
-        Length of the saved window at the end [s].
-    ic : dict or None
-        Initial state by IC key [A, V]; missing keys from the warm start.
-    choke : {"short", "real"}
-        Input choke.
-
-    Returns
-    -------
-    (str, Layout)
-        The deck text and its element names.
-    """
+    """A buck or boost corner as a netlist, with its :class:`Layout`; the contract with
+    units is :attr:`.elements.Deck.build`."""
     check_supported(c)
     ts = switching_period(c)
     td = dead_time(c)
@@ -244,21 +174,8 @@ def boost_slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
     Newton step, in which an error in A slows the approach but does not move the
     equilibrium.
 
-    Parameters
-    ----------
-    c : Circuit
-    lay : Layout
-        Names of the netlist of the run.
-    w : measurement window
-        The end of the run.
-    duty : float
-        Duty ratio of the run [1].
-
-    Returns
-    -------
-    (dict, dict, float)
-        Filter shift and flux-bias shift by IC key [A, V]; estimated steady mean output
-        voltage of this duty [V].
+    Parameters and returns with their units:
+    :attr:`stresscheck.spice.elements.Deck.slow_mode_shift`.
     """
     ts = 1.0 / c.f_sw
     t1 = w.t[-1]
@@ -319,21 +236,8 @@ def buck_slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
     the switch node is ``rect``), no flux shift and the window's mean output voltage
     [A, V].
 
-    Parameters
-    ----------
-    c : Circuit
-    lay : Layout
-        Names of the netlist of the run.
-    w : measurement window
-        The end of the run.
-    duty : float
-        Duty ratio of the run [1].
-
-    Returns
-    -------
-    (dict, dict, float)
-        Filter shift and flux-bias shift by IC key [A, V]; estimated steady mean output
-        voltage of this duty [V].
+    Parameters and returns with their units:
+    :attr:`stresscheck.spice.elements.Deck.slow_mode_shift`.
     """
     return output_filter_shift(c, lay, w), {}, mean_output_voltage(w)
 

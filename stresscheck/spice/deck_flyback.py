@@ -71,10 +71,6 @@ def check_supported(c: Circuit) -> None:
         synchronous rectifier without dead time.
     ValueError
         Position counts, magnetizing inductance or capacitors that do not fit.
-
-    Parameters
-    ----------
-    c : Circuit
     """
     if c.topology not in TOPOLOGIES:
         raise NotImplementedError(f"flyback netlist for topology {c.topology!r} not "
@@ -97,31 +93,12 @@ def check_supported(c: Circuit) -> None:
 
 
 def synchronous(c: Circuit) -> bool:
-    """True where the rectifier is a MOSFET (synchronous rectifier).
-
-    Parameters
-    ----------
-    c : Circuit
-
-    Returns
-    -------
-    bool
-    """
+    """True where the rectifier is a MOSFET (synchronous rectifier)."""
     return isinstance(c.rectifiers[0], SwitchModel)
 
 
 def dead_time(c: Circuit) -> float:
-    """Dead time between the two gates [s]; none with a diode rectifier.
-
-    Parameters
-    ----------
-    c : Circuit
-
-    Returns
-    -------
-    float
-        Dead time [s].
-    """
+    """Dead time between the two gates [s]; none with a diode rectifier."""
     return c.dead_time if synchronous(c) else 0.0
 
 
@@ -130,14 +107,7 @@ def duty_limit(c: Circuit) -> float:
     the secondary to conduct at all; less the gate edges and, synchronous, the two dead
     times (the rectifier MOSFET keeps a minimal pulse).
 
-    Parameters
-    ----------
-    c : Circuit
-
-    Returns
-    -------
-    float
-        Largest duty ratio [1].
+    Parameters and returns with their units: :attr:`stresscheck.spice.elements.Deck.duty_limit`.
     """
     if synchronous(c):
         return 1.0 - 2 * (dead_time(c) + 2 * T_EDGE) * c.f_sw
@@ -155,29 +125,8 @@ def _rectifier_ref_current(c: Circuit, duty: float) -> float:
 
 def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
           ic: dict | None, choke: str) -> tuple[str, Layout]:
-    """Netlist text and its :class:`Layout` (contract of
-    :func:`stresscheck.spice.deck_bridge.build`).
-
-    Parameters
-    ----------
-    c : Circuit
-        The corner.
-    duty : float
-        On-time of each switch per period [1].
-    t_stop : float
-        Simulated time from the initial conditions [s].
-    t_measure : float
-        Length of the saved window at the end [s].
-    ic : dict or None
-        Initial state by IC key [A, V]; missing keys from the warm start.
-    choke : {"short", "real"}
-        Input choke.
-
-    Returns
-    -------
-    (str, Layout)
-        The deck text and its element names.
-    """
+    """Flyback netlist of one corner and its :class:`Layout` (see
+    :attr:`.elements.Deck.build` for the parameters and their units)."""
     check_supported(c)
     ts = switching_period(c)
     ic = initial_conditions(c, ic)
@@ -256,21 +205,8 @@ def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
       secondary's mean current I_s with v_bus²/(v + v_f0):
         C·dv/dt = I_s − v/R,  dI_s/dv_bus = 2·I_s/v_bus,  dI_s/dv = −I_s/(v + v_f0)
 
-    Parameters
-    ----------
-    c : Circuit
-    lay : Layout
-        Names of the netlist of the run.
-    w : measurement window
-        The end of the run.
-    duty : float
-        Duty ratio of the run [1].
-
-    Returns
-    -------
-    (dict, dict, float)
-        Filter shift and flux-bias shift by IC key [A, V]; estimated steady mean output
-        voltage of this duty [V].
+    Parameters and returns with their units:
+    :attr:`stresscheck.spice.elements.Deck.slow_mode_shift`.
     """
     ts = 1.0 / c.f_sw
     t1 = w.t[-1]

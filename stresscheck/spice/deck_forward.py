@@ -69,10 +69,6 @@ def check_supported(c: Circuit) -> None:
         Another topology.
     ValueError
         Position counts, turns or capacitors that do not fit the topology.
-
-    Parameters
-    ----------
-    c : Circuit
     """
     if c.topology not in TOPOLOGIES:
         raise NotImplementedError(f"forward netlist for topology {c.topology!r} not "
@@ -96,14 +92,7 @@ def duty_limit(c: Circuit) -> float:
     Maksimović, Fundamentals of Power Electronics, 2nd ed., §6.3.3 — from memory), less
     the gate edges.
 
-    Parameters
-    ----------
-    c : Circuit
-
-    Returns
-    -------
-    float
-        Largest duty ratio [1].
+    Parameters and returns with their units: :attr:`stresscheck.spice.elements.Deck.duty_limit`.
     """
     limit = 0.5 if c.topology == "two-switch-forward" else c.n_p / (c.n_p + c.n_r)
     limit -= 2 * T_EDGE * c.f_sw
@@ -114,29 +103,8 @@ def duty_limit(c: Circuit) -> float:
 
 def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
           ic: dict | None, choke: str) -> tuple[str, Layout]:
-    """Netlist text and its :class:`Layout` (contract of
-    :func:`stresscheck.spice.deck_bridge.build`).
-
-    Parameters
-    ----------
-    c : Circuit
-        The corner.
-    duty : float
-        On-time of each switch per period [1].
-    t_stop : float
-        Simulated time from the initial conditions [s].
-    t_measure : float
-        Length of the saved window at the end [s].
-    ic : dict or None
-        Initial state by IC key [A, V]; missing keys from the warm start.
-    choke : {"short", "real"}
-        Input choke.
-
-    Returns
-    -------
-    (str, Layout)
-        The deck text and its element names.
-    """
+    """Forward-family deck text of one corner, and the :class:`Layout` of its names
+    (arguments and units as in :attr:`.elements.Deck.build`)."""
     check_supported(c)
     two = c.topology == "two-switch-forward"
     ts = switching_period(c)
@@ -219,21 +187,8 @@ def slow_mode_shift(c: Circuit, lay: Layout, w, duty: float):
     input filter shift (:func:`stresscheck.spice.slow_modes.output_filter_shift`), no flux
     shift (the core resets every period) and the window's mean output voltage [A, V].
 
-    Parameters
-    ----------
-    c : Circuit
-    lay : Layout
-        Names of the netlist of the run.
-    w : measurement window
-        The end of the run.
-    duty : float
-        Duty ratio of the run [1].
-
-    Returns
-    -------
-    (dict, dict, float)
-        Filter shift and flux-bias shift by IC key [A, V]; estimated steady mean output
-        voltage of this duty [V].
+    Parameters and returns with their units:
+    :attr:`stresscheck.spice.elements.Deck.slow_mode_shift`.
     """
     return output_filter_shift(c, lay, w), {}, mean_output_voltage(w)
 

@@ -359,12 +359,13 @@ def diode_sweep_netlist(d: DiodeModel, i_ref: float, i_max: float, n: int = 50) 
     Parameters
     ----------
     d : DiodeModel
+        The straight-line model (v_f0 [V], r_d [ohm]).
     i_ref : float
-        Current at which the model's offset is fitted [A].
+        The offset makes the model exact at this current [A].
     i_max : float
-        Largest current of the sweep [A].
+        End of the sweep, which starts at i_max/n [A].
     n : int
-        Number of sweep steps.
+        Sweep steps.
 
     Returns
     -------

@@ -106,18 +106,8 @@ class Window:
         return float(np.dot(self._dt, 0.5 * (x[1:] + x[:-1])) / self.length)  # trapezoidal
 
     def rms(self, x: np.ndarray) -> float:
-        """Trapezoidal rms over the window.
-
-        Parameters
-        ----------
-        x : numpy.ndarray
-            Samples of one quantity on the window's time points [V or A].
-
-        Returns
-        -------
-        float
-            Rms value [V or A].
-        """
+        """Trapezoidal rms over the window [V or A] of the samples ``x`` (as
+        :meth:`mean`)."""
         return math.sqrt(max(self.mean(x * x), 0.0))
 
     def mean_between(self, x: np.ndarray, t0: float, t1: float) -> float:
