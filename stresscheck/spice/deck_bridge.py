@@ -58,7 +58,7 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
         Length of the window at the end whose time points are saved [s]; saving starts
         one maximum step earlier so the window's first instant can be interpolated.
     ic : dict or None
-        Initial state by :data:`IC_KEYS` [A, V]; missing keys come from
+        Initial state by :data:`.elements.IC_KEYS` [A, V]; missing keys come from
         :func:`stresscheck.spice.elements.analytic_ic`.
     choke : {"short", "real"}
         Input choke, see :data:`stresscheck.spice.elements.CHOKE_RESONANCE`.
