@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import math
 import re
+import unicodedata
 from dataclasses import dataclass
 from functools import lru_cache
 
@@ -89,7 +90,7 @@ def _parse(value, dimension: str, path, key: str) -> float:
     if not isinstance(value, str):
         raise InputError(path, key, f"expected a {_name(dimension)} value such as "
                          f"\"{_example(dimension)}\", got {type_name(value)}")
-    text = value.strip()
+    text = _fold(value).strip()
     if len(text) > MAX_QUANTITY_TEXT:
         raise InputError(path, key, f"cannot read {shorten(value)} as a quantity: too "
                          f"long; expected a number and a unit, such as "
@@ -157,9 +158,20 @@ def _name(dimension: str) -> str:
 
 
 def _normalise_unit(text: str) -> str:
-    text = text.replace("Ω", "ohm").replace("Ω", "ohm").replace("°C", "degC")
-    text = text.replace("°", "deg")
+    """Unit text as pint reads it: Greek capital omega -> ohm, degree sign -> deg (the
+    compatibility forms pasted from datasheets, OHM SIGN U+2126, DEGREE CELSIUS U+2103,
+    KELVIN SIGN U+212A, MICRO SIGN U+00B5, squared forms such as U+338C, are folded to
+    these by `_fold` first)."""
+    text = text.replace("\u03a9", "ohm").replace("\u00b0C", "degC")
+    text = text.replace("\u00b0", "deg")
     return text
+
+
+def _fold(text: str) -> str:
+    """NFKC normal form of a quantity string (Unicode compatibility forms folded:
+    OHM SIGN -> GREEK CAPITAL OMEGA, DEGREE CELSIUS -> DEGREE SIGN + C, MICRO SIGN ->
+    GREEK SMALL MU, full-width digits -> ASCII digits)."""
+    return unicodedata.normalize("NFKC", text)
 
 
 def _check_finite(number: float, path, key):
