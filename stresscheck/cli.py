@@ -221,6 +221,15 @@ def _print_findings(results, limit=12):
         print(f"  ... and {len(rows) - limit} more findings in the report")
 
 
+def _print_shadowed(results):
+    """One line per part id found in more than one folder: which sheet is used and which
+    are shadowed (paths from the design's folder, as in results.json)."""
+    for item in results.get("inputs") or ():
+        if item.get("shadowed"):
+            print(f"  part '{item['name']}': using {item['path']}, shadowing "
+                  f"{', '.join(item['shadowed'])} (paths from the design's folder)")
+
+
 def cmd_check(args) -> int:
     from .checks import exit_status
     results, paths, checks = run_check(args.design, args.parts, args.policy, args.out,
@@ -229,6 +238,7 @@ def cmd_check(args) -> int:
           f"{len(results['corners'])} corners, policy '{results['policy']}'")
     _print_substitutions(results)
     print(_summary_line(results))
+    _print_shadowed(results)
     _print_findings(results)
     print(f"reports: {paths['html']}, {paths['xlsx']}, {paths['json']}")
     return exit_status(checks)

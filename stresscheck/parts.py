@@ -6,9 +6,11 @@ in SI base units; a key whose table allows it may hold a ``Spread`` (range or to
 
 from __future__ import annotations
 
-import re
-from dataclasses import dataclass, field
 import importlib.util
+import os
+import re
+import stat
+from dataclasses import dataclass, field
 from pathlib import Path
 
 from . import schema
@@ -38,6 +40,8 @@ class Part:
     electrical: dict[str, float | Spread] = field(default_factory=dict)
     thermal: dict[str, float] = field(default_factory=dict)
     extra: dict = field(default_factory=dict)  # informational tables kept as read
+    # Sheets of the same id in later folders of the search order, not used.
+    shadowed: list[Path] = field(default_factory=list)
 
     def value(self, key: str) -> float | None:
         """Nominal value of an electrical or thermal key [SI], or None."""
@@ -159,22 +163,59 @@ class PartLibrary:
                              "'..'), starting with a letter or digit, at most 80 characters")
         if part_id in self._cache:
             return self._cache[part_id]
+        found: list[Path] = []
         for folder in self.folders:
             # part_id matches PART_ID (no separators, no ".."), so the candidate is a
             # file directly inside ``folder``: a design cannot reach outside its libraries.
             candidate = folder / f"{part_id}.toml"
-            if candidate.is_file():
-                part = load_part(candidate)
-                self._cache[part_id] = part
-                return part
-        searched = ", ".join(str(f) for f in self.folders)
-        raise InputError(where, key, f"part '{part_id}' is not in any parts library "
-                         f"(searched: {searched})")
+            if os.path.lexists(candidate):
+                require_regular_file(candidate, f"{where}, {key}")
+                found.append(candidate)
+        if not found:
+            searched = ", ".join(str(f) for f in self.folders)
+            raise InputError(where, key, f"part '{part_id}' is not in any parts library "
+                             f"(searched: {searched})")
+        part = load_part(found[0])
+        part.shadowed = found[1:]
+        self._cache[part_id] = part
+        return part
 
     def all_parts(self) -> list[Part]:
         seen: dict[str, Part] = {}
         for folder in self.folders:
             for file in sorted(folder.glob("*.toml")):
+                require_regular_file(file)
                 if file.stem not in seen:
                     seen[file.stem] = load_part(file)
+                else:
+                    seen[file.stem].shadowed.append(file)
         return list(seen.values())
+
+
+_FILE_TYPES = ((stat.S_ISDIR, "a folder"), (stat.S_ISFIFO, "a FIFO (named pipe)"),
+               (stat.S_ISCHR, "a character device"), (stat.S_ISBLK, "a block device"),
+               (stat.S_ISSOCK, "a socket"))
+
+
+def require_regular_file(path: Path, asked_by: str | None = None) -> None:
+    """Refuse a part sheet that is not a regular file (or a link to one): a FIFO, a
+    device, a socket, a folder or a dangling link is an error naming it, never skipped
+    in favour of a sheet of the same id further down the search order."""
+    path = Path(path)
+    why = f" (asked for by {asked_by})" if asked_by else ""
+    link = path.is_symlink()
+    try:
+        mode = path.stat().st_mode
+    except FileNotFoundError:
+        target = os.readlink(path) if link else "?"
+        raise InputError(path, None, f"part sheet is a symbolic link to '{target}', which "
+                         f"does not exist{why}") from None
+    except OSError as exc:
+        raise InputError(path, None, f"cannot read the part sheet: "
+                         f"{exc.strerror or exc}{why}") from None
+    if stat.S_ISREG(mode):
+        return
+    kind = next((name for test, name in _FILE_TYPES if test(mode)), "not a regular file")
+    via = "a symbolic link to " if link else ""
+    raise InputError(path, None, f"part sheet is {via}{kind}, not a regular file; a part "
+                     f"sheet must be a regular file{why}")

@@ -7,9 +7,12 @@ inputs are identified by name and sha256).
 from __future__ import annotations
 
 import hashlib
+import os
+from pathlib import Path
 
 from . import __version__, schema
 from .checks import ROLE_ORDER, summarise, uncovered
+from .parts import shipped_library
 from .report.cautions import CAUTIONS
 
 LOSSES_INCLUDED = (
@@ -52,9 +55,13 @@ def build_results(evaluation, checks, policy) -> dict:
     for comp in design.components:
         parts.setdefault(comp.part.id, comp.part)
     inputs = [{"role": "design", "name": design.path.name, "sha256": file_sha256(design.path)}]
-    inputs += [{"role": "part", "name": pid, "sha256": file_sha256(p.path)}
-               for pid, p in sorted(parts.items())]
+    inputs += [_part_input(pid, p, design.path.parent) for pid, p in sorted(parts.items())]
     inputs.append({"role": "policy", "name": policy.name, "sha256": policy.sha256})
+    notes = list(evaluation.notes) + [
+        {"level": "warning", "text": f"part '{item['name']}': the sheet {item['path']} is "
+         f"used; it shadows {', '.join(item['shadowed'])} (same id further down the search "
+         "order: --parts folders, parts/ beside the design, the shipped library)"}
+        for item in inputs if item.get("shadowed")]
 
     rows = sorted(checks, key=lambda c: (ROLE_ORDER[c.role], _ref_key(c.ref)))
     corner_rows = []
@@ -79,7 +86,7 @@ def build_results(evaluation, checks, policy) -> dict:
         "losses_not_included": list(LOSSES_NOT_INCLUDED),
         "conventions": list(CONVENTIONS),
         "cautions": list(CAUTIONS),
-        "notes": list(evaluation.notes),
+        "notes": notes,
         "uncovered_quantities": uncovered(checks),
         "policy_rules": [r.as_dict() for r in policy.rules],
         "corner_keys": list(corners.columns),
@@ -87,6 +94,34 @@ def build_results(evaluation, checks, policy) -> dict:
         "corners": corner_rows,
         "checks": [c.as_dict() for c in rows],
     }
+
+
+SHIPPED = "(shipped library)"
+
+
+def sheet_path(path, design_dir) -> str:
+    """Where a part sheet was read, as written in results.json: relative to the design's
+    folder with "/" separators ("parts/x.toml", "../lib/x.toml"), or
+    "(shipped library)/x.toml"; never absolute, so results do not depend on where the
+    files live."""
+    path = Path(os.path.abspath(path))
+    shipped = Path(os.path.abspath(shipped_library()))
+    if path.parent == shipped:
+        return f"{SHIPPED}/{path.name}"
+    try:
+        rel = os.path.relpath(path, os.path.abspath(design_dir))
+    except ValueError:  # another drive (Windows): the folder name is all that is stable
+        rel = str(Path(path.parent.name) / path.name)
+    return Path(rel).as_posix()
+
+
+def _part_input(pid, part, design_dir) -> dict:
+    """The inputs entry of a part sheet: id, sha256, the path used and any shadowed."""
+    entry = {"role": "part", "name": pid, "sha256": file_sha256(part.path),
+             "path": sheet_path(part.path, design_dir)}
+    if part.shadowed:
+        entry["shadowed"] = [sheet_path(p, design_dir) for p in part.shadowed]
+    return entry
 
 
 def _ref_key(ref: str):

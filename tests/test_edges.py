@@ -89,3 +89,97 @@ def test_ohm_sign_and_degree_celsius_in_files_give_the_same_results(tmp_path):
         return doc["checks"], doc["corners"]
 
     assert run(tmp_path / "a", "\u2126", "\u2103") == run(tmp_path / "b", "ohm", "degC")
+
+
+# --------------------------------------------------------------------------- part sheets
+
+def _sheet(inputs, pid, folder: Path, **electrical) -> Path:
+    """Copy part ``pid`` of ``inputs`` into ``folder`` with ``electrical`` changed."""
+    import tomllib
+
+    import tomli_w
+    doc = tomllib.loads(inputs.parts[pid].read_text(encoding="utf-8"))
+    doc["electrical"].update(electrical)
+    folder.mkdir(parents=True, exist_ok=True)
+    path = folder / f"{pid}.toml"
+    path.write_text(tomli_w.dumps(doc), encoding="utf-8")
+    return path
+
+
+def test_shadowed_part_ids_are_reported(tmp_path):
+    """The same part id in two --parts folders (and in parts/ beside the design): the
+    first folder's sheet is used, and the CLI summary, results.json `inputs` (`path`,
+    `shadowed`) and the notes shown in the reports say which sheet won and which were
+    shadowed.
+
+    Source: the contract's search order (--parts folders, parts/ beside the design, the
+    shipped library); the issue (no silent substitution of part sheets).
+    """
+    import hashlib
+    inputs = write_inputs(tmp_path / "case")
+    first = _sheet(inputs, "t-fet", tmp_path / "libA", r_ds_on="20 mohm")
+    _sheet(inputs, "t-fet", tmp_path / "libB", r_ds_on="5 mohm")
+    status, out, err = run_cli(inputs.args("--parts", tmp_path / "libA",
+                                           "--parts", tmp_path / "libB"))
+    assert status in (0, 1), err
+    doc = json.loads((inputs.out / "results.json").read_text(encoding="utf-8"))
+    entries = {i["name"]: i for i in doc["inputs"] if i["role"] == "part"}
+    fet = entries["t-fet"]
+    assert fet["path"] == "../libA/t-fet.toml"
+    assert fet["shadowed"] == ["../libB/t-fet.toml", "parts/t-fet.toml"]
+    assert fet["sha256"] == hashlib.sha256(first.read_bytes()).hexdigest()
+    assert entries["t-diode"]["path"] == "parts/t-diode.toml"
+    assert "shadowed" not in entries["t-diode"]
+    assert "part 't-fet': using ../libA/t-fet.toml, shadowing ../libB/t-fet.toml, " \
+           "parts/t-fet.toml" in out
+    assert any("t-fet" in n["text"] and "shadows" in n["text"] for n in doc["notes"])
+
+
+def test_part_from_the_shipped_library_has_its_path(tmp_path):
+    """A sheet read from the shipped library is named as such, never by an absolute
+    path (results.json stays independent of where the tool is installed).
+
+    Source: the issue (results.json inputs give the path of each sheet used); the
+    determinism rule of results.py (no absolute paths).
+    """
+    from stresscheck import cli
+    status, _, err = run_cli(["check", cli.demo_design(), "--out", tmp_path / "o"])
+    assert status in (0, 1), err
+    doc = json.loads((tmp_path / "o" / "results.json").read_text(encoding="utf-8"))
+    paths = [i["path"] for i in doc["inputs"] if i["role"] == "part"]
+    assert paths and all(p.startswith("(shipped library)/") for p in paths), paths
+
+
+def _fifo(path: Path) -> Path:
+    os.mkfifo(path)
+    return path
+
+
+NOT_REGULAR = {
+    "fifo": (lambda p, tmp: _fifo(p), "FIFO"),
+    "link-to-fifo": (lambda p, tmp: p.symlink_to(_fifo(tmp / "pipe")),
+                     "symbolic link to a FIFO"),
+    "link-to-device": (lambda p, tmp: p.symlink_to("/dev/null"),
+                       "symbolic link to a character device"),
+    "dangling-link": (lambda p, tmp: p.symlink_to(tmp / "gone.toml"), "does not exist"),
+    "folder": (lambda p, tmp: p.mkdir(), "folder"),
+}
+
+
+@pytest.mark.skipif(sys.platform == "win32", reason="FIFOs and /dev/null are POSIX")
+@pytest.mark.parametrize("what", sorted(NOT_REGULAR))
+def test_part_file_that_is_not_a_regular_file_is_an_error(tmp_path, what):
+    """A part file in a --parts folder that is a FIFO, a device, a link to one, a
+    dangling link or a folder is an error naming it (exit 2), never skipped in favour of
+    the sheet of the same id further down the search order.
+
+    Source: the issue (silent substitution of part sheets); the contract's exit status 2
+    for an unusable input.
+    """
+    inputs = write_inputs(tmp_path / "case")
+    lib = tmp_path / "lib"
+    lib.mkdir()
+    make, fragment = NOT_REGULAR[what]
+    make(lib / "t-fet.toml", tmp_path)
+    status, _, err = run_cli(inputs.args("--parts", lib))
+    assert_input_error(status, err, lib / "t-fet.toml", None, fragment, "components[0].part")
