@@ -93,6 +93,7 @@ def run_check(design_path: Path, parts, policy_name, out_dir: Path, *, date=None
     design, bom_record = _substitute(design, parts, bom, swaps)
     policy = load_policy(policy_name)
     _refuse_inputs_as_output(out_dir, design, policy)
+    check_out_path(out_dir)
     check_output(out_dir)  # a foreign file in the way: refuse before any work is done
     # Overflow in the models surfaces as a non-finite result, refused below with a
     # message; numpy's warnings (source lines) are no help to a user.
@@ -167,6 +168,29 @@ def _refuse_inputs_as_output(out_dir: Path, design, policy):
             if _same_file(target, path):
                 raise InputError(out_dir, None, f"output {name} would overwrite the input "
                                  f"file {path}; choose another --out")
+
+
+def check_out_path(out_dir: Path) -> None:
+    """Refuse an --out path that cannot become a folder, saying why: the path itself or
+    one of its parent folders is a dangling symbolic link, or a parent is a file (the
+    operating system's own word for both is a bare "File exists")."""
+    out_dir = Path(out_dir)
+    for path in (out_dir, *out_dir.parents):
+        if path.is_symlink() and not path.exists():
+            try:
+                target = os.readlink(path)
+            except OSError:
+                target = "?"
+            which = "the output folder" if path == out_dir else f"'{path}' (a parent of it)"
+            raise InputError(out_dir, None, f"--out: {which} is a symbolic link to "
+                             f"'{target}', which does not exist; create the link's target "
+                             "or choose another --out")
+        if path != out_dir and path.exists():
+            if not path.is_dir():
+                raise InputError(out_dir, None, f"--out: '{path}' is a file, not a folder, "
+                                 "so the output folder cannot be created in it; choose "
+                                 "another --out")
+            return
 
 
 def _non_finite(value, where=""):

@@ -114,6 +114,7 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
         value = parse_spread(table[key], dim, path, f"{prefix}{key}")
         if positive and value.min <= 0:
             raise InputError(path, f"{prefix}{key}", "must be greater than zero")
+        check_bound(path, f"{prefix}{key}", value.min, value.max)
         return value
 
     def scalar(table, key, dim, prefix, *, positive=True):
@@ -122,6 +123,7 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
         value = parse_quantity(table[key], dim, path, f"{prefix}{key}")
         if positive and value <= 0:
             raise InputError(path, f"{prefix}{key}", "must be greater than zero")
+        check_bound(path, f"{prefix}{key}", value, value)
         return value
 
     fsw = spread(conv, "switching_frequency", "frequency", "converter.")
@@ -145,8 +147,10 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
         raise InputError(path, "operating.current_limit", f"current limit ({ilim:g} A) is "
                          f"below the maximum output current ({io.max:g} A)")
     if dead_time * fsw.max >= 0.5:
-        raise InputError(path, "converter.dead_time", "dead time leaves no on-time at the "
-                         "highest switching frequency")
+        raise InputError(path, "converter.dead_time", f"a dead time of {dead_time:g} s "
+                         f"leaves no on-time at the highest switching frequency "
+                         f"({fsw.max:g} Hz, converter.switching_frequency: half a period "
+                         f"is {0.5 / fsw.max:g} s)")
 
     name = optional_text(conv, "name", path, "converter.", max_length=MAX_NAME,
                          single_line=True)
@@ -164,6 +168,20 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
     layout = layout_for(design)  # raises on unsupported combinations
     layout.validate(design)
     return design
+
+
+def check_bound(path, key: str, low: float, high: float) -> None:
+    """Refuse a value of ``key`` outside its plausible range (``schema.DESIGN_BOUNDS``),
+    naming the key and the bound; ``low``/``high`` are the value's extremes [SI]."""
+    bound = schema.DESIGN_BOUNDS.get(key)
+    if bound is None:
+        return
+    if bound.high is not None and high > bound.high:
+        raise InputError(path, key, f"{high:g} {bound.unit} is above the plausible "
+                         f"bound of {bound.high:g} {bound.unit} for this key ({bound.why})")
+    if bound.low is not None and low < bound.low:
+        raise InputError(path, key, f"{low:g} {bound.unit} is below the plausible bound "
+                         f"of {bound.low:g} {bound.unit} for this key ({bound.why})")
 
 
 def _load_components(doc, path, library) -> list[Component]:

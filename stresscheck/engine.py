@@ -183,16 +183,35 @@ def _check_model(design, corners, result: StageResult, stage: Stage):
     reasons (a model that cannot reach the output at all reports at the limit)."""
     over = result.duty > stage.duty_limit
     if over.any():
-        i = int(np.argmax(result.duty - stage.duty_limit))
-        raise RegulationError(design.path, "operating", f"cannot regulate at corner "
+        i = _first_corner(corners, over, result.duty - stage.duty_limit)
+        key, which = CORNER_KEYS[corners.kind[i]]
+        raise RegulationError(design.path, key, f"cannot regulate at {which}corner "
                               f"{corners.describe(i)}: needs a duty ratio of "
                               f"{result.duty[i]:.3f} per switch, above the limit of "
                               f"{stage.duty_limit[i]:.3f} ({duty_limit_reason(design)})")
     for mask, reason in result.invalid:
         if mask.any():
-            i = int(np.flatnonzero(mask)[0])
-            raise RegulationError(design.path, "operating", f"at corner "
+            i = _first_corner(corners, mask)
+            key, which = CORNER_KEYS[corners.kind[i]]
+            raise RegulationError(design.path, key, f"at {which}corner "
                                   f"{corners.describe(i)}: {reason}")
+
+
+# The key a corner's kind comes from, named in a message about that corner.
+CORNER_KEYS = {"steady": ("operating", ""),
+               "overload": ("operating.current_limit", "the current-limit "),
+               "transient": ("operating.input_surge", "the input-surge ")}
+
+
+def _first_corner(corners, mask, score=None) -> int:
+    """The corner a message names: a steady corner before an overload one before a
+    transient one (a surge or current limit is blamed only where the steady envelope
+    holds); within a kind the highest ``score``, or the first."""
+    for kind in ("steady", "overload", "transient"):
+        hit = np.flatnonzero(mask & (corners.kind == kind))
+        if hit.size:
+            return int(hit[np.argmax(score[hit])] if score is not None else hit[0])
+    return int(np.flatnonzero(mask)[0])
 
 
 def derive(devices: list[DeviceModel], corners: CornerSet, result: StageResult,

@@ -147,3 +147,41 @@ STATUSES = ("fail", "not-computed", "unrated", "marginal", "pass", "info")
 
 # Capacitor technologies for which a life figure is computed (wear-out by electrolyte).
 LIFE_TECHNOLOGIES = ("al-electrolytic", "al-polymer")
+
+
+@dataclass(frozen=True)
+class Bound:
+    """Plausible range of one design key [SI units of the key, degC for temperatures];
+    ``None`` leaves that side to the key's own sign rule and the generic magnitude
+    limits of ``units``."""
+
+    low: float | None
+    high: float | None
+    unit: str
+    why: str
+
+
+# Checked when the key is read, before any model runs: an absurd value ("1 THz",
+# "1e3 kV") is refused naming its own key and the bound, rather than surfacing later as a
+# model failure blamed on another key. Common practice (the span of switch-mode power
+# conversion, generous on both sides); the figures in ``why`` are from memory.
+DESIGN_BOUNDS: dict[str, Bound] = {
+    "converter.switching_frequency": Bound(
+        100.0, 1e9, "Hz", "switch-mode converters switch from some hundred hertz (large "
+        "IGBT stages) to some hundred megahertz (integrated and VHF converters)"),
+    "operating.input_voltage": Bound(None, 100e3, "V", "beyond any switch-mode "
+                                     "converter input; check the unit prefix"),
+    "operating.input_surge": Bound(None, 100e3, "V", "beyond any line transient a "
+                                   "converter is built to ride through; check the unit "
+                                   "prefix"),
+    "operating.output_voltage": Bound(None, 100e3, "V", "beyond any switch-mode "
+                                      "converter output; check the unit prefix"),
+    "operating.output_current": Bound(None, 100e3, "A", "beyond any switch-mode "
+                                      "converter output; check the unit prefix"),
+    "operating.current_limit": Bound(None, 100e3, "A", "beyond any switch-mode "
+                                     "converter output; check the unit prefix"),
+    "operating.ambient_temperature": Bound(None, 300.0, "degC", "hotter than any "
+                                           "electronics assembly runs (high-temperature "
+                                           "down-hole electronics work up to about "
+                                           "250 degC)"),
+}

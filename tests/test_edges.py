@@ -183,3 +183,101 @@ def test_part_file_that_is_not_a_regular_file_is_an_error(tmp_path, what):
     make(lib / "t-fet.toml", tmp_path)
     status, _, err = run_cli(inputs.args("--parts", lib))
     assert_input_error(status, err, lib / "t-fet.toml", None, fragment, "components[0].part")
+
+
+# --------------------------------------------------------------------------- messages
+
+def _demo_with(tmp_path, old, new) -> Path:
+    """The demo design with one line changed, written to ``tmp_path``."""
+    from stresscheck import cli
+    text = cli.demo_design().read_text(encoding="utf-8")
+    assert old in text
+    path = tmp_path / "design.toml"
+    path.write_text(text.replace(old, new), encoding="utf-8")
+    return path
+
+
+@pytest.mark.parametrize("old,new,key,fragments", [
+    # absurd surge: was blamed on 'operating' with a magnetizing-current message
+    ('input_surge = "100 V"', 'input_surge = "1e3 kV"', "operating.input_surge",
+     ("1e+06 V", "plausible bound of 100000 V")),
+    # absurd frequency: was blamed on 'converter.dead_time'
+    ('switching_frequency = "200 kHz"', 'switching_frequency = "1 THz"',
+     "converter.switching_frequency", ("1e+12 Hz", "plausible bound of 1e+09 Hz")),
+    ('switching_frequency = "200 kHz"', 'switching_frequency = "10 Hz"',
+     "converter.switching_frequency", ("10 Hz", "plausible bound of 100 Hz")),
+    ('output_current = { min = "3 A", max = "20 A" }',
+     'output_current = { min = "3 A", max = "2e3 kA" }', "operating.output_current",
+     ("2e+06 A", "plausible bound")),
+    ('ambient_temperature = { min = "-40 degC", max = "70 degC" }',
+     'ambient_temperature = { min = "-40 degC", max = "700 degC" }',
+     "operating.ambient_temperature", ("700 degC", "plausible bound of 300 degC")),
+    # a surge inside the bounds that breaks the model: the surge corner names the surge
+    ('input_surge = "100 V"', 'input_surge = "90 kV"', "operating.input_surge",
+     ("input-surge corner", "magnetizing current")),
+    # dead time and frequency both plausible, together impossible: both named
+    ('dead_time = "80 ns"', 'dead_time = "3 us"', "converter.dead_time",
+     ("no on-time", "converter.switching_frequency", "200000 Hz")),
+])
+def test_message_names_the_key_whose_value_is_wrong(tmp_path, old, new, key, fragments):
+    """An absurd value is refused naming its own key and the plausible bound it breaks,
+    before any model runs; a model failure at the surge corner is blamed on
+    operating.input_surge; a dead time too long for the frequency names both values.
+
+    Source: the issue (messages that point at the wrong key); the bounds are this
+    project's plausibility table (schema.DESIGN_BOUNDS, common practice, from memory).
+    """
+    design = _demo_with(tmp_path, old, new)
+    status, _, err = run_cli(["check", design, "--out", tmp_path / "out"])
+    assert_input_error(status, err, design, key, *fragments)
+    assert not (tmp_path / "out").exists()
+
+
+def test_current_limit_corner_failure_names_current_limit(tmp_path):
+    """A regulation failure found only at the current-limit corner is blamed on
+    operating.current_limit (its corner), not on the whole [operating] table.
+
+    Source: the issue (each message names the key whose value is wrong); the contract
+    (overload corners are the ones at current_limit).
+    """
+    import numpy as np
+
+    from stresscheck.corners import CornerSet
+    from stresscheck.engine import CORNER_KEYS, _first_corner
+    kind = np.array(["steady", "overload", "transient", "overload"], dtype=object)
+    corners = CornerSet(["c1", "c2", "c3", "c4"], kind, {}, {})
+    assert _first_corner(corners, np.array([False, True, True, True])) == 1
+    assert _first_corner(corners, np.array([False, True, True, True]),
+                         np.array([0, 1, 5, 3.0])) == 3
+    assert _first_corner(corners, np.array([True, True, False, False])) == 0
+    assert CORNER_KEYS["overload"][0] == "operating.current_limit"
+    assert CORNER_KEYS["transient"][0] == "operating.input_surge"
+
+
+@pytest.mark.skipif(sys.platform == "win32", reason="symbolic links need privileges")
+@pytest.mark.parametrize("layout,fragment", [
+    ("dangling", "the output folder is a symbolic link to"),
+    ("dangling-parent", "(a parent of it) is a symbolic link to"),
+    ("file-parent", "is a file, not a folder"),
+])
+def test_out_on_a_dangling_link_says_so(tmp_path, layout, fragment):
+    """--out on a dangling symbolic link (or below one, or below a file) says what is
+    wrong with --out instead of the operating system's bare "File exists".
+
+    Source: the issue (`--out` on a dangling link says "File exists").
+    """
+    inputs = write_inputs(tmp_path / "case")
+    if layout == "dangling":
+        out = tmp_path / "link"
+        out.symlink_to(tmp_path / "missing")
+    elif layout == "dangling-parent":
+        (tmp_path / "link").symlink_to(tmp_path / "missing")
+        out = tmp_path / "link" / "reports"
+    else:
+        (tmp_path / "plain").write_text("x", encoding="utf-8")
+        out = tmp_path / "plain" / "reports"
+    status, _, err = run_cli(["check", inputs.design, "--policy", inputs.policy,
+                              "--out", out])
+    assert_input_error(status, err, out, None, "--out", fragment)
+    assert "File exists" not in err
+    assert not (tmp_path / "missing").exists()
