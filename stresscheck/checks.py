@@ -8,7 +8,7 @@ governing corner is the one with the highest stress.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -118,7 +118,58 @@ def check_stress(stress, policy, corners) -> Check:
 
 
 def run_checks(evaluation, policy) -> list[Check]:
-    return [check_stress(s, policy, evaluation.corners) for s in evaluation.stresses]
+    runaway = runaway_by_ref(evaluation)
+    return [_check_converged(s, policy, evaluation.corners, runaway)
+            for s in evaluation.stresses]
+
+
+def runaway_by_ref(evaluation) -> dict[str, np.ndarray]:
+    """Corners where each device's electro-thermal loop ran away or did not converge,
+    ``{ref: (N,) bool}``, from the engine's per-position ``runaway`` flags (keyed by
+    ``(role, index)`` or by ref)."""
+    design = evaluation.design
+    out: dict[str, np.ndarray] = {}
+    for key, mask in (getattr(evaluation, "runaway", None) or {}).items():
+        if isinstance(key, str):
+            ref = key
+        else:
+            role, index = key
+            ref = design.positions(role)[index][0]
+        out[ref] = np.asarray(mask, bool)
+    return out
+
+
+def _check_converged(stress, policy, corners, runaway: dict[str, np.ndarray]) -> Check:
+    """The check of one stress, with the corners of an unconverged electro-thermal loop
+    taken out.
+
+    Where some device's loop ran away, the whole operating point there (duty, currents,
+    drops, losses, hence every stress of every ref, voltages included) comes from an
+    unconverged loop. The runaway device's own t_j stays the fail it is. Any other row
+    counting such a corner is not-computed with the reason, unless the corners that did
+    converge already make it fail (more corners can only raise the worst ratio).
+    """
+    full = check_stress(stress, policy, corners)
+    ran = np.zeros(corners.size, bool)
+    for mask in runaway.values():
+        ran |= mask
+    hit = ran & stress.applicable
+    if not hit.any() or (stress.quantity == "t_j" and stress.ref in runaway
+                         and runaway[stress.ref][hit].any()):
+        return full
+    refs = sorted(ref for ref, mask in runaway.items() if (mask & hit).any())
+    first = int(np.flatnonzero(hit)[0])
+    why = (f"thermal runaway of {', '.join(refs)} (first at corner {corners.ids[first]}): "
+           f"the electro-thermal loop did not converge at {int(hit.sum())} of the corners "
+           "this row counts, so its values there are not computed")
+    kept = replace(stress, applicable=stress.applicable & ~ran)
+    if kept.applicable.any():
+        partial = check_stress(kept, policy, corners)
+        if partial.status == "fail":
+            return replace(partial, note="; ".join(n for n in (partial.note, why) if n))
+    return replace(full, stress=None, corner=corners.ids[first], rating=None,
+                   allowed=None, ratio=None, status="not-computed", stress_kind=None,
+                   note=why)
 
 
 def summarise(checks: list[Check]) -> dict[str, int]:

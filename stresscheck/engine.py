@@ -56,7 +56,9 @@ def run(design, corners: CornerSet | None = None) -> Evaluation:
     t, runaway = solve_temperatures(design, corners, devices)
     stage = build_stage(design, corners, devices, t)
     result = evaluate(stage)
-    _check_model(design, corners, result, stage)
+    _check_model(design, corners, result, stage,
+                 skip=np.logical_or.reduce([np.zeros(corners.size, bool),
+                                            *runaway.values()]))
     notes.extend({"level": "assumption", "text": text} for text in result.notes)
     stresses, losses, p_loss = derive(devices, corners, result, t, runaway)
     if any(r.any() for r in runaway.values()):
@@ -177,11 +179,14 @@ def thermal_network(devices: list[DeviceModel], p: dict[Key, np.ndarray],
     return {d.key: d.temperature(p[d.key], t_a) for d in devices}
 
 
-def _check_model(design, corners, result: StageResult, stage: Stage):
+def _check_model(design, corners, result: StageResult, stage: Stage, skip=None):
     """Refuse the design where the model does not hold: first a duty beyond the limit
     (at such a corner nothing else the model says is meaningful), then the model's own
-    reasons (a model that cannot reach the output at all reports at the limit)."""
-    over = result.duty > stage.duty_limit
+    reasons (a model that cannot reach the output at all reports at the limit).
+    Corners in ``skip`` (an electro-thermal runaway: R_DS(on) at the clamp, not a
+    solution) are left out; their rows are reported not-computed by the checks."""
+    keep = np.ones(corners.size, bool) if skip is None else ~skip
+    over = (result.duty > stage.duty_limit) & keep
     if over.any():
         i = _first_corner(corners, over, result.duty - stage.duty_limit)
         key, which = CORNER_KEYS[corners.kind[i]]
@@ -190,6 +195,7 @@ def _check_model(design, corners, result: StageResult, stage: Stage):
                               f"{result.duty[i]:.3f} per switch, above the limit of "
                               f"{stage.duty_limit[i]:.3f} ({duty_limit_reason(design)})")
     for mask, reason in result.invalid:
+        mask = mask & keep
         if mask.any():
             i = _first_corner(corners, mask)
             key, which = CORNER_KEYS[corners.kind[i]]

@@ -281,3 +281,69 @@ def test_out_on_a_dangling_link_says_so(tmp_path, layout, fragment):
     assert_input_error(status, err, out, None, "--out", fragment)
     assert "File exists" not in err
     assert not (tmp_path / "missing").exists()
+
+
+# --------------------------------------------------------------------------- runaway
+
+def test_rows_from_an_unconverged_electro_thermal_loop_are_not_computed(tmp_path):
+    """Switches whose electro-thermal loop runs away at the current-limit corners: their
+    t_j is a fail, and no row that counts such a corner passes (or is info) on values
+    from the unconverged loop: i_rms and p_loss of the runaway switches, and every other
+    row, are not-computed with the reason, unless the corners that did converge already
+    make the row fail (a fail stays a fail, with the reason added).
+
+    Source: the project rule "a stress not computed is reported as not-computed, never as
+    a pass"; runaway criterion of a resistive device, T = T_a + R_th·R(T)·I² with
+    R(T) = R_25·(1 + α·(T - 25 K)) having no finite fixed point once R_th·α·R_25·I²
+    approaches 1 (textbook fixed-point argument; the engine clamps at 1000 degC).
+    Here R_25 = 100 mΩ, α = 1 %/K, R_th = 1 + 60 K/W: it runs away at 12 A only.
+    """
+    from builders import bridge_parts
+    design = rich_design()
+    design["components"][0]["r_th_ca"] = "60 K/W"
+    parts = bridge_parts(c_in={"min": "80 uF", "max": "120 uF"},
+                         c_out={"nom": "1000 uF", "tolerance": "20 %"},
+                         l_m={"nom": "200 uH", "tolerance": "25 %"})
+    parts["t-fet"]["electrical"].update(r_ds_on="100 mohm", r_ds_on_tc="1 %/K")
+    parts["t-diode"]["ratings"]["v_rrm"] = "40 V"  # fails at every corner
+    inputs = write_inputs(tmp_path, design, parts)
+    status, out, err = run_cli(inputs.args())
+    assert status == 1, err
+    doc = json.loads((inputs.out / "results.json").read_text(encoding="utf-8"))
+    kinds = {c["id"]: c["kind"] for c in doc["corners"]}
+    rows = {(c["ref"], c["quantity"]): c for c in doc["checks"]}
+    for ref in ("Q1", "Q2", "Q3", "Q4"):
+        assert rows[(ref, "t_j")]["status"] == "fail"
+        assert "thermal runaway" in rows[(ref, "t_j")]["note"]
+        for q in ("i_rms", "p_loss", "i_peak", "v_peak"):
+            row = rows[(ref, q)]
+            assert row["status"] == "not-computed", row
+            assert row["stress"] is None and row["ratio"] is None
+            assert f"thermal runaway of Q1, Q2, Q3, Q4" in row["note"]
+            assert kinds[row["corner"]] == "overload"  # the runaway is at the limit
+    for ref in ("D1", "D2"):  # fails where the loop converged: stays a fail
+        row = rows[(ref, "v_reverse_peak")]
+        assert row["status"] == "fail" and row["ratio"] > 1
+        assert "thermal runaway" in row["note"]
+        assert kinds[row["corner"]] != "overload"
+    assert all(c["status"] in ("fail", "not-computed") for c in doc["checks"])
+
+
+def test_runaway_switch_has_no_passing_current_or_loss_row(tmp_path):
+    """The demo design with its bridge switches on a 400 K/W thermal path: the loop runs
+    away; the switches' i_rms and p_loss (a pass and an info row before) are
+    not-computed with the reason, and their t_j is a fail.
+
+    Source: the project rule "a stress not computed is reported as not-computed, never as
+    a pass"; the runaway criterion as in the test above.
+    """
+    design = _demo_with(tmp_path, 'r_th_ca = "10 K/W"', 'r_th_ca = "400 K/W"')
+    status, _, err = run_cli(["check", design, "--out", tmp_path / "out"])
+    assert status == 1, err
+    doc = json.loads((tmp_path / "out" / "results.json").read_text(encoding="utf-8"))
+    rows = {(c["ref"], c["quantity"]): c for c in doc["checks"]}
+    assert rows[("Q1", "t_j")]["status"] == "fail"
+    for q in ("i_rms", "p_loss"):
+        assert rows[("Q1", q)]["status"] == "not-computed"
+        assert "thermal runaway of Q1" in rows[("Q1", q)]["note"]
+    assert doc["summary"]["pass"] == 0 and doc["summary"]["info"] == 0
