@@ -127,15 +127,13 @@ def runaway_by_ref(evaluation) -> dict[str, np.ndarray]:
     """Corners where each device's electro-thermal loop ran away or did not converge,
     ``{ref: (N,) bool}``, from the engine's per-position ``runaway`` flags (keyed by
     ``(role, index)`` or by ref)."""
-    design = evaluation.design
+    from .devices import positions
+    runaway = getattr(evaluation, "runaway", None) or {}
+    refs = {p.key: p.refs for p in positions(evaluation.design)} if runaway else {}
     out: dict[str, np.ndarray] = {}
-    for key, mask in (getattr(evaluation, "runaway", None) or {}).items():
-        if isinstance(key, str):
-            ref = key
-        else:
-            role, index = key
-            ref = design.positions(role)[index][0]
-        out[ref] = np.asarray(mask, bool)
+    for key, mask in runaway.items():
+        for ref in ([key] if isinstance(key, str) else refs[key]):
+            out[ref] = np.asarray(mask, bool)
     return out
 
 
