@@ -6,6 +6,7 @@ Levels per dimension:
   ambient_temperature  min, max
   output_voltage       min, max when a range
   switching_frequency  min, max when a range
+  line_frequency       min, max when a range (input = "ac" only)
   <ref>.<key>          min, max of each tolerance a part sheet gives (inductance,
                        magnetizing inductance, capacitance)
 The full factorial is evaluated at once as numpy arrays (one entry per corner).
@@ -69,6 +70,9 @@ def build_corners(design) -> CornerSet:
     levels["output_voltage"] = design.output_voltage.extremes()
     levels["switching_frequency"] = design.switching_frequency.extremes()
     units.update(ENVELOPE_UNITS)
+    if getattr(design, "line_frequency", None) is not None:
+        levels["line_frequency"] = design.line_frequency.extremes()
+        units["line_frequency"] = "Hz"
     for comp in design.components:
         for key, unit in TOLERANCE_KEYS.items():
             spread = comp.part.spread(key) if key in comp.part.electrical else None

@@ -49,6 +49,13 @@ class Design:
     current_limit: float | None  # [A]
     ambient_temperature: Spread  # [degC]
     components: list[Component] = field(default_factory=list)
+    # what feeds the converter: "dc" (input_voltage is a DC voltage) or "ac" (the
+    # utility: input_voltage is an rms line voltage at line_frequency). A later stage fed
+    # from another stage's bus would add a third value here.
+    input: str = "dc"
+    line_frequency: Spread | None = None  # [Hz], input = "ac" only
+    hold_up_time: float | None = None  # [s]
+    hold_up_voltage: float | None = None  # [V] lowest bus voltage the load accepts
 
     def by_role(self, role: str) -> list[Component]:
         return [c for c in self.components if c.role == role]
@@ -60,8 +67,10 @@ class Design:
 
 CONVERTER_KEYS = ("name", "topology", "rectifier", "modulation", "switching_frequency",
                   "dead_time", "max_duty")
-OPERATING_KEYS = ("input_voltage", "input_surge", "output_voltage", "output_current",
-                  "current_limit", "ambient_temperature")
+OPERATING_KEYS = ("input", "input_voltage", "input_surge", "output_voltage", "output_current",
+                  "current_limit", "ambient_temperature", "line_frequency", "hold_up_time",
+                  "hold_up_voltage")
+INPUTS = ("dc", "ac")
 COMPONENT_KEYS = ("ref", "refs", "role", "part", "r_th_ca", "r_th_ja", "parallel", "note")
 MAX_NAME = 200  # converter.name: one line in report headers and on the terminal
 # A designator: up to 40 printable characters, no blanks, control or format characters
@@ -162,6 +171,7 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
 
     design = Design(path, name, topology, rectifier, modulation, fsw, dead_time, max_duty,
                     vin, surge, vo, io, ilim, ta)
+    _load_line(design, op, spread, scalar)
     library = PartLibrary(part_folders(path, parts_dirs))
     design.components = _load_components(doc, path, library)
     check_envelope(design)  # what the topology cannot produce, before its options
@@ -182,6 +192,30 @@ def check_bound(path, key: str, low: float, high: float) -> None:
     if bound.low is not None and low < bound.low:
         raise InputError(path, key, f"{low:g} {bound.unit} is below the plausible bound "
                          f"of {bound.low:g} {bound.unit} for this key ({bound.why})")
+
+
+def _load_line(design, op, spread, scalar) -> None:
+    """``input``, ``line_frequency`` and the hold-up keys of [operating] (CONTRACT.md,
+    "Extensions in this version")."""
+    path = design.path
+    design.input = require_str(op, "input", path, "operating.", optional=True,
+                               choices=INPUTS) or "dc"
+    ac = design.input == "ac"
+    if "line_frequency" in op and not ac:
+        raise InputError(path, "operating.line_frequency", "a line frequency applies to "
+                         "input = \"ac\" only")
+    design.line_frequency = spread(op, "line_frequency", "frequency", "operating.",
+                                   required=ac)
+    design.hold_up_time = scalar(op, "hold_up_time", "time", "operating.")
+    design.hold_up_voltage = scalar(op, "hold_up_voltage", "voltage", "operating.")
+    if (design.hold_up_time is None) != (design.hold_up_voltage is None):
+        missing = "hold_up_voltage" if design.hold_up_voltage is None else "hold_up_time"
+        raise InputError(path, f"operating.{missing}", "hold_up_time and hold_up_voltage "
+                         "go together: give both or neither")
+    if design.hold_up_voltage is not None \
+            and design.hold_up_voltage >= design.output_voltage.min:
+        raise InputError(path, "operating.hold_up_voltage", f"must lie below the lowest "
+                         f"output voltage ({design.output_voltage.min:g} V)")
 
 
 def _load_components(doc, path, library) -> list[Component]:

@@ -99,7 +99,10 @@ def build_stage(design, corners: CornerSet, devices: list[DeviceModel],
                  duty_limit=topology_duty_limit(design, corners["switching_frequency"]),
                  dead_time=design.dead_time, devices=parts.semiconductors,
                  transformer=parts.transformer, inductors=parts.inductors,
-                 capacitors=parts.capacitors)
+                 capacitors=parts.capacitors,
+                 line_frequency=corners.columns.get("line_frequency"),
+                 hold_up=(None if design.hold_up_time is None
+                          else (design.hold_up_time, design.hold_up_voltage)))
 
 
 def solve_temperatures(design, corners: CornerSet, devices: list[DeviceModel]):
@@ -262,7 +265,7 @@ def derive(devices: list[DeviceModel], corners: CornerSet, result: StageResult,
             temperature = Temperature(np.full(corners.size, np.nan), device.no_path_reason)
         else:  # the loop's own solution
             temperature = Temperature(np.where(runaway[key], np.inf, t[key]))
-        rows = device.stresses(result, losses[key], temperature)
+        rows = device.stresses(result, losses[key], temperature) + device.model_rows(result)
         for ref in device.refs:
             losses_by_ref[ref] = losses[key]
             for row in rows:

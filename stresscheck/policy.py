@@ -218,7 +218,7 @@ def _str_list(raw, name, path, key, choices):
 
 
 _QUANTITY_DIMENSIONS = {"V": "voltage", "A": "current", "W": "power", "degC": "temperature",
-                        "T": "flux_density", "s": "time"}
+                        "T": "flux_density", "s": "time", "1": "fraction"}
 
 
 def _quantity_dimension(quantity: str) -> str:

@@ -32,11 +32,12 @@ TOPOLOGIES = tuple(_MODELS)
 RECTIFIERS = ("center-tap", "full-bridge", "current-doubler")
 MODULATIONS = ("pwm", "phase-shift")
 
-ROLES = ("switch", "rectifier", "freewheel", "reset", "transformer", "inductor",
-         "input-capacitor", "output-capacitor", "split-capacitor")
+ROLES = ("bridge-rectifier", "switch", "rectifier", "freewheel", "reset", "transformer",
+         "inductor", "input-capacitor", "output-capacitor", "split-capacitor")
 
 # Which part kinds may fill a role.
 ROLE_KINDS = {
+    "bridge-rectifier": ("diode",),
     "switch": ("mosfet",),
     "rectifier": ("diode", "mosfet"),
     "freewheel": ("diode", "mosfet"),
@@ -131,13 +132,20 @@ QUANTITIES: dict[str, Quantity] = {
     "t_hotspot": Quantity("degC", "thermal", "hot-spot temperature"),
     "b_peak": Quantity("T", "voltage", "peak flux density in the core"),
     "life": Quantity("s", "thermal", "expected life at the hot-spot temperature"),
+    "i_ripple_rms_lf": Quantity("A", "current", "line-frequency part of the capacitor's "
+                                "rms current (local averages over the line cycle)"),
+    "i_ripple_rms_hf": Quantity("A", "current", "switching-frequency part of the "
+                                "capacitor's rms current"),
+    "hold_up": Quantity("1", "hold-up", "bulk capacitance the hold-up time needs, as a "
+                        "share of the capacitance at the lowest tolerance"),
 }
 
 # Quantities per part kind, in report order.
 KIND_QUANTITIES = {
-    "mosfet": ("v_peak", "i_peak", "i_rms", "p_loss", "t_j"),
+    "mosfet": ("v_peak", "i_peak", "i_rms", "i_avg", "p_loss", "t_j"),
     "diode": ("v_reverse_peak", "i_avg", "i_rms", "i_peak", "p_loss", "t_j"),
-    "capacitor": ("v_peak", "i_ripple_rms", "t_hotspot", "life"),
+    "capacitor": ("v_peak", "i_ripple_rms", "i_ripple_rms_lf", "i_ripple_rms_hf", "hold_up",
+                  "t_hotspot", "life"),
     "inductor": ("i_peak", "i_rms", "t_hotspot"),
     "transformer": ("b_peak", "t_hotspot"),
 }
@@ -184,4 +192,9 @@ DESIGN_BOUNDS: dict[str, Bound] = {
                                            "electronics assembly runs (high-temperature "
                                            "down-hole electronics work up to about "
                                            "250 degC)"),
+    "operating.line_frequency": Bound(10.0, 2000.0, "Hz", "utility lines run at 50 or "
+                                      "60 Hz, aircraft at 400 Hz or 360-800 Hz; check the "
+                                      "unit prefix"),
+    "operating.hold_up_time": Bound(None, 10.0, "s", "bulk capacitors hold a bus up for "
+                                    "milliseconds; check the unit prefix"),
 }

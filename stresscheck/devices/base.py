@@ -189,6 +189,12 @@ class DeviceModel:
         """Dissipation of the whole position [W] from that of one device, (N,)."""
         return p_device * self.devices
 
+    def model_rows(self, result: StageResult) -> list[Row]:
+        """Quantities the converter model adds for this position
+        (``StageResult.shared_rows``), per device: position totals shared equally."""
+        return [Row(q, np.asarray(v, dtype=float) / self.devices)
+                for q, v in result.shared_rows.get(self.key, {}).items()]
+
     # ---------------------------------------------------------------- per kind
     def notes(self) -> list[dict]:
         """Warnings about the part sheet (values missing, defaults taken)."""

@@ -65,10 +65,31 @@ class Capacitor(DeviceModel):
         esr = self.electrical.get("esr")
         return {} if esr is None else {"esr": esr * self._i_rms(result) ** 2}
 
+    def hold_up_share(self, needed: np.ndarray) -> np.ndarray:
+        """Capacitance a hold-up time needs as a share of the bank's capacitance at the
+        lowest tolerance [1]; the policy's limit (e.g. 80 %: end of life at −20 % of
+        rated capacitance, common practice) sets the margin for ageing.
+
+        Parameters
+        ----------
+        needed : ndarray
+            Capacitance the whole position needs [F], (N,).
+
+        Returns
+        -------
+        ndarray
+            needed / (C_min · devices) [1], (N,).
+        """
+        c_min = self.part.spread("capacitance").min
+        return np.asarray(needed, dtype=float) / (c_min * self.devices)
+
     def stresses(self, result: StageResult, losses: Losses,
                  temperature: Temperature) -> list[Row]:
         rows = [Row("v_peak", result.v_block[self.key]),
                 Row("i_ripple_rms", self._i_rms(result))]
+        needed = result.capacitance_needed.get(self.key)
+        if needed is not None:
+            rows.append(Row("hold_up", self.hold_up_share(needed)))
         if "esr" not in losses:
             temperature = Temperature(np.full(self.size, np.nan), "no ESR on the part sheet")
         rows.append(Row("t_hotspot", temperature.values, temperature.reason))

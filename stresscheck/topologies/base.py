@@ -121,6 +121,10 @@ class Stage:
     transformer: Magnetics | None
     inductors: list[Inductor]
     capacitors: dict[tuple[str, int], CapacitorBank]
+    # input = "ac": the line frequency [Hz], (N,); None for a DC input
+    line_frequency: np.ndarray | None = None
+    # (hold_up_time [s], hold_up_voltage [V]) when the design asks for a hold-up check
+    hold_up: tuple[float, float] | None = None
 
     def count(self, role: str) -> int:
         return sum(1 for r, _ in self.devices if r == role)
@@ -152,6 +156,13 @@ class StageResult:
     regime: np.ndarray | None = None  # e.g. "CCM" per corner
     # what the model leaves out or assumes, for the report (e.g. "v_peak before spikes")
     notes: list[str] = field(default_factory=list)
+    # quantities a model adds for a position beyond its kind's own, as position totals
+    # its devices share equally: position key -> quantity -> (N,) [SI] (e.g. the line-
+    # and switching-frequency parts of a bulk capacitor's ripple current)
+    shared_rows: dict[tuple[str, int], dict[str, np.ndarray]] = field(default_factory=dict)
+    # capacitance a capacitor position needs [F], (N,) (hold-up), checked by the capacitor
+    # against its capacitance at the lowest tolerance
+    capacitance_needed: dict[tuple[str, int], np.ndarray] = field(default_factory=dict)
 
 
 @runtime_checkable

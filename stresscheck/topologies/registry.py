@@ -12,6 +12,7 @@ from __future__ import annotations
 import numpy as np
 
 from . import boost, bridge, buck, flyback, forward
+from ..errors import InputError
 from .base import Layout, Stage, StageResult, Topology
 
 TOPOLOGIES: dict[str, Topology] = {
@@ -28,8 +29,16 @@ TOPOLOGIES: dict[str, Topology] = {
 
 def check_envelope(design) -> None:
     """Refuse an operating envelope the design's topology cannot produce, naming the
-    key (``InputError``); see each model's ``check_envelope``."""
-    TOPOLOGIES[design.topology].check_envelope(design)
+    key (``InputError``); see each model's ``check_envelope``. A model takes a DC input
+    unless it lists what it takes in a module-level ``INPUTS`` (``pfc_boost``: "ac")."""
+    model = TOPOLOGIES[design.topology]
+    inputs = getattr(model, "INPUTS", ("dc",))
+    given = getattr(design, "input", "dc")
+    if given not in inputs:
+        raise InputError(design.path, "operating.input", f"a {design.topology} converter "
+                         f"takes input = " + " or ".join(f'"{i}"' for i in inputs)
+                         + f", not \"{given}\"")
+    model.check_envelope(design)
 
 
 def layout_for(design) -> Layout:
