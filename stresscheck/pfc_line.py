@@ -173,18 +173,47 @@ def solve_line_cycle(v_rms, f_line, fs, v_bus, i_o, l, *, r_on, dcr, vf_boost, r
     return cyc
 
 
+def switching_charge(cyc: LineCycle) -> np.ndarray:
+    """Charge swing of the bulk capacitor within one switching period at each angle [C],
+    (N, M): the area of the capacitor current below its local mean.
+
+    The capacitor carries i_D − I_o; about its local mean that is i_D − ī_D, negative by
+    ī_D wherever the boost diode is off (on-time and DCM idle time) and below ī_D over
+    the falling end of the diode's conduction: Q = ī_D·(T_s − t_off) + ∫ max(ī_D − i_D, 0)
+    over t_off (exact for the straight-line diode current; the DC boost's closed form
+    Q = I_o·D·T_s of Erickson & Maksimović, 2nd ed., §2.3, when i_D stays above ī_D).
+    """
+    a, b, _ = cyc.segments()
+    i_hi, i_lo = a[..., 1], b[..., 1]  # diode current at the start and end of t_off
+    i_bar = cyc.local_mean("off")
+    t_off = cyc.t_off
+    with np.errstate(divide="ignore", invalid="ignore"):
+        partial = 0.5 * (i_bar - i_lo) ** 2 * t_off / (i_hi - i_lo)
+    whole = (i_bar - (i_hi + i_lo) / 2) * t_off
+    below = np.where(i_lo >= i_bar, 0.0, np.where(i_hi <= i_bar, whole, partial))
+    return i_bar * (cyc.ts[:, None] - t_off) + np.nan_to_num(below)
+
+
 def bus_ripple(cyc: LineCycle, c_bus, esr=0.0):
     """Bulk-capacitor voltage excursion about the mean bus voltage over one line cycle.
 
     The low-frequency part integrates the local average capacitor current
     (boost-diode current − I_o) over the sampled line cycle (midpoint rule, time step
-    T_line/M); the switching part at each angle is the boost's ΔV = I_o·t_on/C (the
-    capacitor alone feeds the load while the switch is on, Erickson & Maksimović §2.3),
-    plus ESR times the capacitor current at the diode's peak.
+    T_line/M); the switching part at each angle is the swing ``switching_charge``/C,
+    taken half above and half below the local value, plus ESR times the capacitor
+    current at the diode's peak (up) and at the load current alone (down).
+
+    Parameters
+    ----------
+    cyc : LineCycle
+        The solved line cycle.
+    c_bus : (N,) bulk capacitance [F]
+    esr : (N,) or float, its equivalent series resistance [Ω]
 
     Returns
     -------
     (v_max, v_min) : (N,) highest and lowest excursion from the mean [V]
+    v_lf : (N, M) the low-frequency excursion at each angle [V]
     """
     c = np.asarray(c_bus, dtype=float).reshape(-1)[:, None]
     esr = np.asarray(esr, dtype=float).reshape(-1)[:, None]
@@ -193,10 +222,10 @@ def bus_ripple(cyc: LineCycle, c_bus, esr=0.0):
     q = np.cumsum(i_c * dt, axis=1) - i_c * dt / 2  # charge at each sample's midpoint
     v_lf = q / c
     v_lf = v_lf - v_lf.mean(axis=1, keepdims=True)
-    v_hf = cyc.i_o[:, None] * cyc.t_on / c
+    v_hf = switching_charge(cyc) / c
     up = v_lf + v_hf / 2 + esr * np.maximum(cyc.i_peak - cyc.i_o[:, None], 0.0)
     down = v_lf - v_hf / 2 - esr * cyc.i_o[:, None]
-    return up.max(axis=1), down.min(axis=1)
+    return up.max(axis=1), down.min(axis=1), v_lf
 
 
 def hold_up_capacitance(p_out, t_hold, v_start, v_hold):

@@ -7,7 +7,7 @@ topology is its deck module and one line of :data:`DECKS`.
 
 from __future__ import annotations
 
-from . import deck_bridge, deck_buck_boost, deck_flyback, deck_forward
+from . import deck_bridge, deck_buck_boost, deck_flyback, deck_forward, deck_pfc_boost
 from .circuit import Circuit
 from .elements import Deck, Layout
 
@@ -20,6 +20,7 @@ DECKS: dict[str, Deck] = {
     "flyback": deck_flyback.DECK,
     "buck": deck_buck_boost.BUCK,
     "boost": deck_buck_boost.BOOST,
+    "pfc-boost": deck_pfc_boost.DECK,
 }
 
 

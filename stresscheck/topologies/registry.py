@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import boost, bridge, buck, flyback, forward
+from . import boost, bridge, buck, flyback, forward, pfc_boost
 from ..errors import InputError
 from .base import Layout, Stage, StageResult, Topology
 
@@ -24,6 +24,7 @@ TOPOLOGIES: dict[str, Topology] = {
     "flyback": flyback,
     "buck": buck,
     "boost": boost,
+    "pfc-boost": pfc_boost,
 }
 
 
