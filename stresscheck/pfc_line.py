@@ -32,8 +32,7 @@ from dataclasses import dataclass
 import numpy as np
 
 DEFAULT_ANGLES = 96  # line-cycle samples; a multiple of 4 puts samples at both crests
-END_OF_LIFE_CAPACITANCE = 0.8  # electrolytic end of life: −20 % of rated capacitance
-# (the end-of-life criterion most makers use for aluminium electrolytics: common practice)
+DCM_PASSES = 8  # fixed-point passes on the DCM peak current (drops at i_p/2)
 
 
 def line_angles(m: int = DEFAULT_ANGLES) -> np.ndarray:
@@ -107,12 +106,20 @@ def _solve_angles(theta, v_pk, i_pk, v_bus, ts, l, r_on, dcr, vf_boost, rd_boost
     v_on = np.maximum(v_in - (r_on_c + dcr_c) * i_avg, 0.0)
     ripple = v_on * d * tsc / lc
     ccm = i_avg >= ripple / 2
-    # DCM: average of a triangle pulse equals the reference
-    v_off = np.maximum(vb + v_f - v_in + dcr_c * i_avg, 1e-12)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        t_on_dcm = np.sqrt(2 * lc * tsc * i_avg / (v_on * (1 + v_on / v_off)))
-    t_on_dcm = np.where(v_on > 0, t_on_dcm, 0.0)
-    i_p_dcm = v_on * t_on_dcm / lc
+    # DCM: average of a triangle pulse equals the reference. The drops are taken at each
+    # interval's own mean current, i_p/2 (not at the local average), so that the
+    # volt-second integral of every interval is exact for the straight-line current;
+    # i_p is found by a short fixed point from the drops at the local average.
+    vf0_c, rd_c = vf_boost[:, None], rd_boost[:, None]
+    i_mid = i_avg
+    for _ in range(DCM_PASSES):
+        v_on_d = np.maximum(v_in - (r_on_c + dcr_c) * i_mid, 0.0)
+        v_off = np.maximum(vb + vf0_c + (rd_c + dcr_c) * i_mid - v_in, 1e-12)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            t_on_dcm = np.sqrt(2 * lc * tsc * i_avg / (v_on_d * (1 + v_on_d / v_off)))
+        t_on_dcm = np.where(v_on_d > 0, t_on_dcm, 0.0)
+        i_p_dcm = v_on_d * t_on_dcm / lc
+        i_mid = i_p_dcm / 2
     t_off_dcm = i_p_dcm * lc / v_off
     t_on = np.where(ccm, d * tsc, t_on_dcm)
     t_off = np.where(ccm, (1 - d) * tsc, np.minimum(t_off_dcm, tsc - t_on_dcm))

@@ -166,11 +166,15 @@ def evaluate(st: Stage, m: int = DEFAULT_ANGLES) -> StageResult:
         v_block[FILTER] = v_crest
         shared[FILTER] = {"i_ripple_rms_lf": np.zeros(n),
                           "i_ripple_rms_hf": currents[FILTER].rms()}
+    # the capacitors' ESR loss is drawn from the line too (the line-cycle solution takes
+    # the bus as ideal): ESR·I_rms² of each bank (common practice)
+    p_esr = sum(st.capacitors[k].esr * currents[k].rms() ** 2 for k in (BULK, FILTER)
+                if k in currents)
     crest = m // 4  # line_angles puts the positive crest at this index
     conducting = cyc.i_avg > 0
     result = StageResult(
         duty=cyc.t_on[:, crest] / cyc.ts, grid=grid, currents=currents, v_block=v_block,
-        input_current=cyc.p_line / st.v_in, winding_loss=np.zeros(n), b_peak=None,
+        input_current=(cyc.p_line + p_esr) / st.v_in, winding_loss=np.zeros(n), b_peak=None,
         i_m_peak=np.zeros(n), i_l_start=cyc.i_start[:, crest], i_m_start=np.zeros(n),
         regime=regime_summary(cyc.dcm, conducting), shared_rows=shared,
         notes=[f"pfc-boost: average-current control with a sinusoidal reference (unity "
