@@ -92,6 +92,7 @@ def verify_design(design_path, parts, policy_name, *, keep: Path | None = None) 
     from .errors import SimulationError
     from .policy import load_policy
     from .spice.circuit import circuit_at
+    from .spice.decks import deck_for
     from .spice.run import find_ngspice
     from .spice.simulate import simulate
 
@@ -99,6 +100,9 @@ def verify_design(design_path, parts, policy_name, *, keep: Path | None = None) 
         raise SimulationError("ngspice is not on PATH (install it, e.g. "
                               "'apt-get install ngspice')")
     design = load_design(design_path, parts)
+    refused = deck_for(design.topology).refused
+    if refused:
+        raise SimulationError(f"{design.path}: {refused}")
     evaluation = run(design)
     checks = run_checks(evaluation, load_policy(policy_name))
     corners = governing_corners(evaluation, checks)

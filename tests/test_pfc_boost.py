@@ -227,3 +227,10 @@ def test_ac_input_refused_by_a_dc_topology(tmp_path):
     with pytest.raises(InputError, match='takes input = "dc"') as err:
         load_design(path)
     assert err.value.key == "operating.input"
+
+
+def test_verify_refuses_the_topology_cleanly(capsys):
+    """`verify` does not simulate a pfc-boost (the line-cycle transients are in
+    tests/test_spice_pfc_boost.py): exit 2 with the reason, before any simulation."""
+    assert cli.main(["verify", str(EXAMPLE)]) == 2
+    assert "not part of 'verify'" in capsys.readouterr().err

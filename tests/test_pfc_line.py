@@ -124,3 +124,23 @@ def test_hold_up_capacitance_energy_balance():
     # 300 W for 20 ms from 380 V down to 300 V: C = 2·300·0.02/(380² − 300²) = 220.6 µF
     assert hold_up_capacitance(300.0, 20e-3, 380.0, 300.0) == pytest.approx(
         2 * 300 * 0.02 / (380 ** 2 - 300 ** 2))
+
+
+@pytest.mark.parametrize("v_rms, angle_index", [(90.0, 24), (230.0, 24), (230.0, 3)])
+def test_switching_charge_by_numerical_integration(v_rms, angle_index):
+    """Charge swing of the bulk capacitor in one switching period (CCM at the crest,
+    DCM near the zero crossing) against the integral of the positive part of
+    i_D − mean(i_D), sampled at 20,000 points (equal positive and negative areas)."""
+    from stresscheck.pfc_line import switching_charge
+    l, fs, v_bus = 500e-6, 100e3, 400.0
+    cyc = _solve([v_rms], l=l, fs=fs, v_bus=v_bus)
+    j, ts = angle_index, 1 / fs
+    t = (np.arange(20000) + 0.5) / 20000 * ts
+    t_on, t_off = cyc.t_on[0, j], cyc.t_off[0, j]
+    slope = (v_bus - cyc.v_in[0, j]) / l
+    i_d = np.where((t >= t_on) & (t < t_on + t_off),
+                   np.maximum(cyc.i_peak[0, j] - slope * (t - t_on), 0.0), 0.0)
+    dev = i_d - i_d.mean()
+    q = np.sum(np.maximum(dev, 0.0)) * ts / t.size
+    # 0.5 %: midpoint sampling of the on/off edges at Ts/20000
+    assert switching_charge(cyc)[0, j] == pytest.approx(q, rel=5e-3)

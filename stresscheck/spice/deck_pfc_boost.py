@@ -6,7 +6,8 @@ line cycle and needs a transient over whole line cycles with an average-current
 controller. That transient is built in the tests instead (``tests/pfc_spice.py``:
 behavioural average-current controller, two line cycles, netlists under
 ``tests/reference/spice/``). Every function here raises ``NotImplementedError`` with
-that explanation, so ``verify`` refuses the topology cleanly.
+that explanation, and ``DECK.refused`` holds it, so ``verify`` refuses the topology
+before running anything (exit status 2).
 """
 
 from __future__ import annotations
@@ -38,4 +39,4 @@ def slow_mode_shift(c, lay, w, duty):
     check_supported(c)
 
 
-DECK = Deck("pfc-boost", build, duty_limit, slow_mode_shift)
+DECK = Deck("pfc-boost", build, duty_limit, slow_mode_shift, refused=REASON)

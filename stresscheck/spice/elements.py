@@ -404,9 +404,13 @@ class Deck:
         to the averaged equilibrium of a run's duty, by IC key [A, V], split into the
         filter shift and the flux-bias shift, and the estimated steady mean output
         voltage of the duty [V] (see :mod:`stresscheck.spice.simulate`).
+    refused : str or None
+        Why ``verify`` does not simulate this topology at all (None: it does); the
+        three callables then raise ``NotImplementedError`` with it.
     """
 
     name: str
     build: Callable
     duty_limit: Callable
     slow_mode_shift: Callable
+    refused: str | None = None
