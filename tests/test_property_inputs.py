@@ -584,7 +584,8 @@ def policy_rule_mutations(doc):
             if "margin" not in rule and "limit" not in rule:
                 sub.append(st.just(DELETE).map(m("factor", "delete factor")))
         qdim = {"V": "voltage", "A": "current", "W": "power", "degC": "temperature",
-                "T": "flux_density", "s": "time"}[schema.QUANTITIES[rule["quantity"]].unit]
+                "T": "flux_density", "s": "time", "1": "fraction"}[
+            schema.QUANTITIES[rule["quantity"]].unit]
         if "margin" in rule:
             mdim = "temperature_difference" if qdim == "temperature" else qdim
             for s in quantity_mutations(base + ("margin",), Q(mdim, negative_bad=True),
