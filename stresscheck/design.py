@@ -70,7 +70,6 @@ CONVERTER_KEYS = ("name", "topology", "rectifier", "modulation", "switching_freq
 OPERATING_KEYS = ("input", "input_voltage", "input_surge", "output_voltage", "output_current",
                   "current_limit", "ambient_temperature", "line_frequency", "hold_up_time",
                   "hold_up_voltage")
-INPUTS = ("dc", "ac")
 COMPONENT_KEYS = ("ref", "refs", "role", "part", "r_th_ca", "r_th_ja", "parallel", "note")
 MAX_NAME = 200  # converter.name: one line in report headers and on the terminal
 # A designator: up to 40 printable characters, no blanks, control or format characters
@@ -199,7 +198,7 @@ def _load_line(design, op, spread, scalar) -> None:
     "Extensions in this version")."""
     path = design.path
     design.input = require_str(op, "input", path, "operating.", optional=True,
-                               choices=INPUTS) or "dc"
+                               choices=schema.INPUTS) or "dc"
     ac = design.input == "ac"
     if "line_frequency" in op and not ac:
         raise InputError(path, "operating.line_frequency", "a line frequency applies to "

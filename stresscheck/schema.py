@@ -29,6 +29,9 @@ TECHNOLOGIES = {
 
 # The topologies a design may name: exactly those the registry has a model for.
 TOPOLOGIES = tuple(_MODELS)
+# What feeds a converter ([operating] input): a DC voltage, or the utility (rms voltage
+# at line_frequency). Each model lists the ones it takes (``INPUTS``; default "dc").
+INPUTS = ("dc", "ac")
 RECTIFIERS = ("center-tap", "full-bridge", "current-doubler")
 MODULATIONS = ("pwm", "phase-shift")
 
