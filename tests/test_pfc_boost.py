@@ -123,6 +123,12 @@ def test_line_cycle_integrals_against_numerical_integration(v_rms):
     # the filter capacitor after the bridge carries the switching ripple of i_L
     i_f = i_l - i_l.mean(axis=1, keepdims=True)
     assert cur[("input-capacitor", 0)].rms()[0] == pytest.approx(_rms(i_f), rel=rms2)
+    # without it the bridge carries i_L itself over its half cycle
+    bare = evaluate(_stage(v_rms, filtered=False)).currents[("bridge-rectifier", 0)]
+    i_bare = np.where(i_bridge > 0, i_l, 0.0)
+    assert bare.mean()[0] == pytest.approx(i_bare.mean(), rel=rms2)
+    assert bare.rms()[0] == pytest.approx(_rms(i_bare), rel=rms2)
+    assert bare.peak()[0] == pytest.approx(i_bare.max(), rel=peak4)
 
 
 def test_regime_per_angle_summarised():
