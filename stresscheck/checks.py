@@ -37,19 +37,31 @@ class Check:
     stress_kind: str | None
     basis: str = "computed"
     note: str = ""
+    rating_needed: float | None = None  # [SI of the quantity] see _rating_needed
+    waiver: dict | None = None  # {reason, approved_by, date, expires} when waived
+    waived_status: str | None = None  # the status a waiver replaced
 
     def as_dict(self) -> dict:
-        return {k: getattr(self, k) for k in (
+        out = {k: getattr(self, k) for k in (
             "ref", "role", "part", "kind", "quantity", "unit", "stress", "corner", "rating",
             "rating_key", "allowed", "ratio", "status", "rule", "rule_source", "stress_kind",
-            "basis", "note")}
+            "basis", "note", "rating_needed")}
+        if self.waiver is not None:
+            out["waiver"] = dict(self.waiver)
+            out["waived_status"] = self.waived_status
+        return out
 
 
 def _f(x) -> float | None:
     return None if x is None or not np.isfinite(x) else float(x)
 
 
-def check_stress(stress, policy, corners) -> Check:
+def check_stress(stress, policy, corners, temperatures=None) -> Check:
+    """One stress of one ref under ``policy``.
+
+    ``temperatures`` maps a temperature basis ("ambient", "device") to an (N,) array
+    [degC] over all corners; needed only by ``factor_vs_temperature`` rules.
+    """
     comp, part, q = stress.component, stress.component.part, stress.quantity
     base = dict(ref=stress.ref, role=comp.role, part=part.id, kind=part.kind, quantity=q,
                 unit=schema.QUANTITIES[q].unit)
@@ -58,12 +70,12 @@ def check_stress(stress, policy, corners) -> Check:
     kinds = corners.kind[idx]
     rules = policy.rules_for(part, q)
 
-    def empty(status, note, rule=None, stress_value=None, corner=None):
+    def empty(status, note, rule=None, stress_value=None, corner=None, needed=None):
         return Check(**base, stress=stress_value, corner=corner, rating=None,
                      rating_key=rule.rating if rule else None, allowed=None, ratio=None,
                      status=status, rule=rule.id if rule else None,
                      rule_source=rule.source if rule else None,
-                     stress_kind=None, note=note)
+                     stress_kind=None, note=note, rating_needed=needed)
 
     if np.isnan(values).any():
         bad = idx[np.isnan(values)][0]
@@ -77,22 +89,44 @@ def check_stress(stress, policy, corners) -> Check:
     if not rules:
         return empty("info", "no rule of the policy covers this quantity", None,
                      _f(values[worst]), corners.ids[idx[worst]])
+
+    def temps(rule):
+        if rule.curve is None:
+            return None
+        arr = (temperatures or {}).get(rule.temperature)
+        if arr is None:
+            return np.full(values.shape, np.nan)
+        return np.asarray(arr, dtype=float)[idx]
+
+    def applies(rule):
+        if rule.stress_kinds is None:
+            return np.ones(values.shape, bool)
+        return np.isin(kinds, rule.stress_kinds)
+
     missing = [r for r in rules if r.rating is not None and r.rating not in part.ratings]
     if missing:
         r = missing[0]
+        needed, _ = _rating_needed(rules, r.rating_key, values, applies, temps)
         return empty("unrated", f"part sheet gives no '{r.rating}' rating", r,
-                     _f(values[worst]), corners.ids[idx[worst]])
+                     _f(values[worst]), corners.ids[idx[worst]], needed)
+    for r in rules:
+        t = temps(r)
+        if t is not None and (np.isnan(t) & applies(r)).any():
+            bad = idx[np.isnan(t) & applies(r)][0]
+            return empty("not-computed", f"rule '{r.id}' reads the {r.temperature} "
+                         "temperature, which is not computed for this part", r,
+                         corner=corners.ids[bad])
 
-    # allowed per corner kind: the strictest rule that applies to that kind
+    # allowed per corner: the strictest rule that applies there (first one on a tie)
     allowed = np.full(values.shape, np.nan)
-    governing: dict[str, object] = {}
-    for kind in np.unique(kinds):
-        applying = [r for r in rules if r.stress_kinds is None or kind in r.stress_kinds]
-        if not applying:
-            continue
-        best = min(applying, key=lambda r: r.allowed(part))
-        governing[kind] = best
-        allowed[kinds == kind] = best.allowed(part)
+    governing = np.full(values.shape, -1)
+    for j, r in enumerate(rules):
+        mask = applies(r)
+        a = np.broadcast_to(np.asarray(r.allowed(part, temps(r)), dtype=float),
+                            values.shape)
+        take = mask & (np.isnan(allowed) | (a < allowed))
+        allowed = np.where(take, a, allowed)
+        governing = np.where(take, j, governing)
     covered = ~np.isnan(allowed)
     if not covered.any():
         return empty("info", "no rule for these stress kinds", None,
@@ -101,7 +135,7 @@ def check_stress(stress, policy, corners) -> Check:
         ratio = np.where(covered & (allowed > 0), values / np.where(allowed > 0, allowed, 1),
                          np.where(covered, np.inf, -np.inf))
     g = int(np.argmax(ratio))
-    rule = governing[kinds[g]]
+    rule = rules[int(governing[g])]
     r_val = ratio[g]
     if not np.isfinite(r_val) or r_val > 1:
         status = "fail"
@@ -109,17 +143,61 @@ def check_stress(stress, policy, corners) -> Check:
         status = "marginal"
     else:
         status = "pass"
-    note = "" if np.isfinite(r_val) else "allowed value is zero or negative"
+    notes = []
+    if not np.isfinite(r_val):
+        notes.append("allowed value is zero or negative")
+        if rule.curve is not None:
+            notes.append(f"the {rule.temperature} temperature is above the last point "
+                         f"of rule '{rule.id}'")
+    needed, why = _rating_needed(rules, rule.rating_key, values, applies, temps)
+    if why:
+        notes.append(why)
+    rating = part.ratings.get(rule.rating_key) if rule.rating_key else None
     return Check(**base, stress=_f(values[g]), corner=corners.ids[idx[g]],
-                 rating=_f(part.ratings.get(rule.rating)) if rule.rating else None,
-                 rating_key=rule.rating, allowed=_f(allowed[g]), ratio=_f(r_val),
+                 rating=_f(rating) if rating is not None else None,
+                 rating_key=rule.rating_key,
+                 allowed=_f(allowed[g]), ratio=_f(r_val),
                  status=status, rule=rule.id, rule_source=rule.source,
-                 stress_kind=str(kinds[g]), note=note)
+                 stress_kind=str(kinds[g]), note="; ".join(notes), rating_needed=needed)
+
+
+def _rating_needed(rules, key, values, applies, temps):
+    """(rating_needed, note): the smallest ``key`` rating with which every rule on that
+    rating passes at every corner it applies to [SI], by each rule's inverse (rules.py
+    ``Rule.rating_needed``). None with a note where no rating can pass."""
+    if key is None:
+        return None, ""
+    need = -np.inf
+    for r in rules:
+        if r.rating_key != key:
+            continue
+        mask = applies(r)
+        if not mask.any():
+            continue
+        n = r.rating_needed(values, temps(r))[mask]
+        if np.isnan(n).any():
+            return None, ""
+        need = max(need, float(np.max(n)))
+    if need == np.inf:
+        return None, f"no {key} rating passes: the stress is above a fixed limit of the " \
+                     "policy"
+    return (_f(need) if np.isfinite(need) else None), ""
+
+
+def device_temperatures(stresses) -> dict[str, np.ndarray]:
+    """Each ref's own computed temperature [degC] over all corners: junction for
+    semiconductors, hot spot for capacitors and magnetics."""
+    return {s.ref: s.values for s in stresses if s.quantity in ("t_j", "t_hotspot")}
 
 
 def run_checks(evaluation, policy) -> list[Check]:
     runaway = runaway_by_ref(evaluation)
-    return [_check_converged(s, policy, evaluation.corners, runaway)
+    corners = evaluation.corners
+    ambient = (corners["ambient_temperature"] if "ambient_temperature" in corners.columns
+               else None)
+    device = device_temperatures(evaluation.stresses)
+    return [_check_converged(s, policy, corners, runaway,
+                             {"ambient": ambient, "device": device.get(s.ref)})
             for s in evaluation.stresses]
 
 
@@ -137,7 +215,8 @@ def runaway_by_ref(evaluation) -> dict[str, np.ndarray]:
     return out
 
 
-def _check_converged(stress, policy, corners, runaway: dict[str, np.ndarray]) -> Check:
+def _check_converged(stress, policy, corners, runaway: dict[str, np.ndarray],
+                     temperatures=None) -> Check:
     """The check of one stress, with the corners of an unconverged electro-thermal loop
     taken out.
 
@@ -147,7 +226,7 @@ def _check_converged(stress, policy, corners, runaway: dict[str, np.ndarray]) ->
     counting such a corner is not-computed with the reason, unless the corners that did
     converge already make it fail (more corners can only raise the worst ratio).
     """
-    full = check_stress(stress, policy, corners)
+    full = check_stress(stress, policy, corners, temperatures)
     ran = np.zeros(corners.size, bool)
     for mask in runaway.values():
         ran |= mask
@@ -162,16 +241,17 @@ def _check_converged(stress, policy, corners, runaway: dict[str, np.ndarray]) ->
            "this row counts, so its values there are not computed")
     kept = replace(stress, applicable=stress.applicable & ~ran)
     if kept.applicable.any():
-        partial = check_stress(kept, policy, corners)
+        partial = check_stress(kept, policy, corners, temperatures)
         if partial.status == "fail":
             return replace(partial, note="; ".join(n for n in (partial.note, why) if n))
     return replace(full, stress=None, corner=corners.ids[first], rating=None,
                    allowed=None, ratio=None, status="not-computed", stress_kind=None,
-                   note=why)
+                   note=why, rating_needed=None)
 
 
 def summarise(checks: list[Check]) -> dict[str, int]:
-    summary = {s: 0 for s in ("pass", "marginal", "fail", "unrated", "info", "not-computed")}
+    summary = {s: 0 for s in ("pass", "marginal", "fail", "unrated", "info", "not-computed",
+                              "waived")}
     for c in checks:
         summary[c.status] = summary.get(c.status, 0) + 1
     return summary
@@ -181,7 +261,13 @@ def uncovered(checks: list[Check]) -> list[str]:
     return sorted({f"{c.kind}.{c.quantity}" for c in checks if c.status == "info"})
 
 
-def exit_status(checks: list[Check]) -> int:
-    """0 nothing fails; 1 a check fails, is unrated or could not be computed."""
+FAIL_ON = ("fail", "marginal")
+
+
+def exit_status(checks: list[Check], fail_on: str = "fail") -> int:
+    """0 nothing fails; 1 a check fails, is unrated or could not be computed (or, with
+    ``fail_on="marginal"``, is marginal). Waived checks never set it."""
     bad = {"fail", "unrated", "not-computed"}
+    if fail_on == "marginal":
+        bad.add("marginal")
     return 1 if any(c.status in bad for c in checks) else 0

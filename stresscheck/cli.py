@@ -1,4 +1,4 @@
-"""Command line: ``stresscheck check | demo | verify``.
+"""Command line: ``stresscheck check | demo | verify | policies | policy show``.
 
 Exit status: 0 nothing fails, 1 a check fails (or is unrated / not computed), 2 the input
 is unusable (message names file and key; never a traceback), 3 an internal error (a bug:
@@ -36,6 +36,14 @@ def _parser() -> argparse.ArgumentParser:
                    help="BOM (CSV or XLSX): its parts replace the design's for its refs")
     c.add_argument("--swap", action="append", default=[], metavar="REF=PART",
                    help="put PART at REF (repeatable; after --bom)")
+    c.add_argument("--fail-on", dest="fail_on", choices=("fail", "marginal"),
+                   default="fail", help="'marginal': marginal rows also fail the exit "
+                   "status (default: fail, unrated and not-computed rows only)")
+    sub.add_parser("policies", help="list the built-in derating policies")
+    ps = sub.add_parser("policy", help="policy commands")
+    psub = ps.add_subparsers(dest="policy_command", required=True)
+    show = psub.add_parser("show", help="print a policy rule by rule")
+    show.add_argument("name", metavar="NAME_OR_FILE")
     d = sub.add_parser("demo", help="run the shipped demo design")
     d.add_argument("--out", type=Path, default=Path(DEFAULT_OUT), metavar="DIR")
     v = sub.add_parser("verify", help="compare computed stresses with ngspice at the "
@@ -83,6 +91,7 @@ def run_check(design_path: Path, parts, policy_name, out_dir: Path, *, date=None
 
     from .checks import run_checks
     from .design import load_design
+    from .waivers import apply_waivers
     from .engine import run
     from .policy import load_policy
     from .report.writer import check_output, write_reports
@@ -100,11 +109,14 @@ def run_check(design_path: Path, parts, policy_name, out_dir: Path, *, date=None
     with np.errstate(all="ignore"):
         evaluation = run(design)
         checks = run_checks(evaluation, policy)
+    today = _dt.date.fromisoformat(date) if date else _today()
+    apply_waivers(checks, design.waivers, today, design.path)
+    with np.errstate(all="ignore"):
         results = build_results(evaluation, checks, policy)
     if bom_record is not None:
         results.update(bom_record)
     _refuse_non_finite(results, design)
-    context = {"date": date or _dt.date.today().isoformat(), "tool_version": __version__}
+    context = {"date": today.isoformat(), "tool_version": __version__}
     paths = write_reports(results, context, out_dir)
     return results, paths, checks
 
@@ -135,6 +147,11 @@ def _substitute(design, parts, bom, swaps):
     design, changes = apply(design, subs, library_for(design, parts))
     record["substitutions"] = changes
     return design, record
+
+
+def _today() -> _dt.date:
+    """The run date (waiver expiry and report date); tests replace it."""
+    return _dt.date.today()
 
 
 def _input_paths(design, policy) -> list[Path]:
@@ -229,8 +246,37 @@ def _refuse_non_finite(results: dict, design) -> None:
 
 def _summary_line(results) -> str:
     s = results["summary"]
-    return ("  " + ", ".join(f"{s.get(k, 0)} {k}" for k in
-                            ("pass", "marginal", "fail", "unrated", "not-computed", "info")))
+    keys = ["pass", "marginal", "fail", "unrated", "not-computed", "info"]
+    if s.get("waived"):
+        keys.append("waived")
+    return "  " + ", ".join(f"{s.get(k, 0)} {k}" for k in keys)
+
+
+def _policy_lines(results) -> list[str]:
+    """What the policy leaves open: rules from memory, quantities with no rule."""
+    lines = []
+    details = results.get("policy_details") or {}
+    if details.get("from_memory"):
+        lines.append(f"  policy '{results['policy']}' has rules whose values are from "
+                     "memory, not read in a published copy (see 'stresscheck policy show')")
+    uncovered = results.get("uncovered_quantities") or []
+    if uncovered:
+        lines.append(f"  policy '{results['policy']}' leaves uncovered (info rows, no "
+                     f"limit): {', '.join(uncovered)}")
+    return lines
+
+
+def _print_waived(results, limit=12):
+    rows = [c for c in results["checks"] if c.get("waiver")]
+    for c in rows[:limit]:
+        w = c["waiver"]
+        ratio = f"{100 * c['ratio']:.1f} % of allowed" if c["ratio"] is not None else ""
+        until = f", expires {w['expires']}" if w.get("expires") else ""
+        print(f"  {c['status'].upper():12s} {c['ref']:6s} {c['quantity']:15s} {ratio}"
+              f"  (was {c.get('waived_status') or c['status']}; approved by "
+              f"{w['approved_by']} on {w['date']}{until}: {w['reason']})")
+    if len(rows) > limit:
+        print(f"  ... and {len(rows) - limit} more waived checks in the report")
 
 
 def _print_findings(results, limit=12):
@@ -262,10 +308,29 @@ def cmd_check(args) -> int:
           f"{len(results['corners'])} corners, policy '{results['policy']}'")
     _print_substitutions(results)
     print(_summary_line(results))
+    for line in _policy_lines(results):
+        print(line)
     _print_shadowed(results)
     _print_findings(results)
+    _print_waived(results)
     print(f"reports: {paths['html']}, {paths['xlsx']}, {paths['json']}")
-    return exit_status(checks)
+    return exit_status(checks, args.fail_on)
+
+
+def cmd_policies(args) -> int:
+    from .policy import builtin_names, load_policy
+    for name in builtin_names():
+        p = load_policy(name)
+        memory = " [some rules from memory]" if p.from_memory else ""
+        print(f"{name}\t{p.title}\t{p.source}{memory}")
+    return 0
+
+
+def cmd_policy(args) -> int:
+    from .policy import load_policy
+    from .policy_show import show_policy
+    print(show_policy(load_policy(args.name)))
+    return 0
 
 
 def _print_substitutions(results) -> None:
@@ -340,6 +405,8 @@ def cmd_demo(args) -> int:
     results, paths, checks = run_check(demo_design(), [], "commercial", args.out)
     print(f"demo design: {results['design']}")
     print(_summary_line(results))
+    for line in _policy_lines(results):
+        print(line)
     _print_findings(results)
     print(f"open {paths['html']} in a browser; the spreadsheet is {paths['xlsx']}")
     status = exit_status(checks)
@@ -381,7 +448,8 @@ def _one_line(text: str) -> str:
 def main(argv=None) -> int:
     args = _parser().parse_args(argv)
     handlers = {"check": cmd_check, "demo": cmd_demo, "verify": cmd_verify,
-                "diff": cmd_diff, "alternates": cmd_alternates, "parts": cmd_parts}
+                "diff": cmd_diff, "alternates": cmd_alternates, "parts": cmd_parts,
+                "policies": cmd_policies, "policy": cmd_policy}
     try:
         return handlers[args.command](args)
     except InputError as exc:

@@ -17,6 +17,7 @@ from .tomlio import (check_keys, optional_text, read_toml, require_str, require_
                      shorten, type_name)
 from .topologies import check_envelope, layout_for
 from .units import Spread, parse_quantity, parse_spread
+from .waivers import read_waivers
 
 
 @dataclass
@@ -56,6 +57,7 @@ class Design:
     line_frequency: Spread | None = None  # [Hz], input = "ac" only
     hold_up_time: float | None = None  # [s]
     hold_up_voltage: float | None = None  # [V] lowest bus voltage the load accepts
+    waivers: list = field(default_factory=list)  # waivers.Waiver, see waivers.py
 
     def by_role(self, role: str) -> list[Component]:
         return [c for c in self.components if c.role == role]
@@ -98,7 +100,8 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
             raise InputError(folder, None, "--parts expects a folder of part sheets, but "
                              "this is a file")
     doc = read_toml(path, "design file")
-    check_keys(doc, ("schema", "converter", "operating", "components", "bom"), path)
+    check_keys(doc, ("schema", "converter", "operating", "components", "bom", "waivers"),
+               path)
     version = require_str(doc, "schema", path)
     if version != schema.DESIGN_SCHEMA:
         raise InputError(path, "schema", f"unknown schema version {shorten(version)}; "
@@ -173,6 +176,7 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
     _load_line(design, op, spread, scalar)
     library = PartLibrary(part_folders(path, parts_dirs))
     design.components = _load_components(doc, path, library)
+    design.waivers = read_waivers(doc, path, design.components)
     check_envelope(design)  # what the topology cannot produce, before its options
     layout = layout_for(design)  # raises on unsupported combinations
     layout.validate(design)

@@ -77,6 +77,7 @@ def build_results(evaluation, checks, policy) -> dict:
         "schema": schema.RESULTS_SCHEMA,
         "design": design.name,
         "policy": policy.name,
+        "policy_details": policy.details(),
         "summary": summarise(checks),
         "tool": {"name": "stresscheck", "version": __version__},
         "converter": {"topology": design.topology, "rectifier": design.rectifier,
