@@ -21,7 +21,7 @@ MARKER = "<!-- stresscheck report -->"  # emitted by the template; see writer.py
 
 # Display order of statuses; the first four are "findings".
 STATUS_ORDER = ("fail", "not-computed", "unrated", "marginal", "pass", "info")
-FINDING_STATUSES = ("fail", "not-computed", "unrated", "marginal")
+FINDING_STATUSES = ("fail", "not-computed", "unrated", "marginal", "waived")
 
 # One palette for HTML and spreadsheet (RRGGBB): three-state green/amber/red, grey where
 # there is no verdict, blue-grey for information only.
@@ -405,6 +405,16 @@ def _rule_view(rule: dict) -> dict:
             "source": _text(rule.get("source"))}
 
 
+def policy_label(results: dict) -> str:
+    """The policy name, with "rules from memory" and what it leaves uncovered."""
+    details, text = results.get("policy_details") or {}, _text(results.get("policy"))
+    extra = ["some rules from memory"] if details.get("from_memory") else []
+    uncovered = results.get("uncovered_quantities") or []
+    if uncovered:
+        extra.append("leaves uncovered: " + ", ".join(str(u) for u in uncovered))
+    return f"{text} ({'; '.join(extra)})" if extra else text
+
+
 def _verdict(counts: dict) -> dict:
     bad = counts.get("fail", 0) + counts.get("unrated", 0)
     if bad:
@@ -444,7 +454,7 @@ def build_view(results: dict, context: dict) -> dict:
     header = [("Topology", _text(converter.get("topology"))),
               ("Rectifier", _text(converter.get("rectifier"))),
               ("Modulation", _text(converter.get("modulation"))),
-              ("Policy", _text(results.get("policy"))),
+              ("Policy", policy_label(results)),
               ("Tool", f"{(results.get('tool') or {}).get('name') or 'stresscheck'} "
                        f"{tool_version(results, context)}"),
               ("Date", _text(context.get("date")))]

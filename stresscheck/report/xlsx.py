@@ -22,8 +22,8 @@ from openpyxl.utils import get_column_letter
 
 from .cautions import CAUTIONS
 from .html import (OTHER_COLOUR, STATUS_COLOURS, STATUS_ORDER,
-                   corner_columns, count_statuses, display_value, sort_findings, tool_version,
-                   unit_label)
+                   corner_columns, count_statuses, display_value, policy_label,
+                   sort_findings, tool_version, unit_label)
 
 CHECK_COLUMNS = ("ref", "role", "part", "kind", "quantity", "unit", "stress", "allowed",
                  "rating", "rating key", "ratio", "status", "rule", "rule source", "corner",
@@ -185,7 +185,7 @@ def _about_sheet(ws, results: dict, context: dict) -> None:
                          ("topology", converter.get("topology")),
                          ("rectifier", converter.get("rectifier")),
                          ("modulation", converter.get("modulation")),
-                         ("policy", results.get("policy")),
+                         ("policy", policy_label(results)),
                          ("tool", tool.get("name") or "stresscheck"),
                          ("tool version", tool_version(results, context)),
                          ("date", context.get("date")),
