@@ -164,6 +164,7 @@ class Rule:
                 "temperature": self.temperature if self.curve else None,
                 "technology": list(self.technology) if self.technology else None,
                 "stress_kinds": list(self.stress_kinds) if self.stress_kinds else None,
+                "form": self.form(),
                 "source": self.source, "document": self.document, "table": self.table,
                 "note": self.note, "from_memory": self.from_memory}
 

@@ -391,6 +391,8 @@ def _rule_view(rule: dict) -> dict:
         parts.append(base)
     if limit is not None:
         parts.append(f"at most {amount(limit, unit)}")
+    if rule.get("factor_vs_temperature"):  # a curve: the rule's own wording
+        parts = [_text(rule.get("form"))]
 
     def listing(value):
         if value is None or value == [] or value == "":
