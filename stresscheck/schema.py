@@ -154,7 +154,7 @@ KIND_QUANTITIES = {
 }
 
 STRESS_KINDS = ("steady", "overload", "transient")
-STATUSES = ("fail", "not-computed", "unrated", "marginal", "pass", "info")
+STATUSES = ("fail", "not-computed", "unrated", "marginal", "pass", "info", "waived")
 
 # Capacitor technologies for which a life figure is computed (wear-out by electrolyte).
 LIFE_TECHNOLOGIES = ("al-electrolytic", "al-polymer")
