@@ -211,7 +211,7 @@ CASES = [
          edit=_set("t-diode:ratings.v_rrm", "NaN V")),
     Case("inf-string", "design", "operating.output_current.max", ("finite",),
          edit=_set("design:operating.output_current.max", "inf A")),
-    Case("nan-policy-factor", "policy", "rules[0].factor", ("(0, 1.5]",),
+    Case("nan-policy-factor", "policy", "rules[0].factor", ("(0, 1]",),
          edit=_set("policy:rules[0].factor", float("nan"))),
     Case("nan-marginal", "policy", "marginal_above", ("(0, 1]",),
          edit=_set("policy:marginal_above", float("nan"))),
@@ -234,8 +234,12 @@ CASES = [
          edit=_set("t-diode:electrical.v_f0", "-0.4 V")),
     Case("negative-margin", "policy", "rules[3].margin", ("negative",),
          edit=_set("policy:rules[3].margin", "-5 K")),
-    Case("zero-factor", "policy", "rules[0].factor", ("(0, 1.5]",),
+    Case("zero-factor", "policy", "rules[0].factor", ("(0, 1]",),
          edit=_set("policy:rules[0].factor", 0)),
+    # a factor above 1 would allow a stress beyond the absolute maximum rating (issue 10)
+    Case("factor-above-one", "policy", "rules[0].factor",
+         ("rule 'mosfet-v_peak'", "absolute maximum"),
+         edit=_set("policy:rules[0].factor", 1.2)),
     # --- min above max, nom outside --------------------------------------------------
     Case("min-above-max-design", "design", "operating.input_voltage",
          ("min (60 V) is above max (40 V)",),
