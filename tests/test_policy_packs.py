@@ -116,6 +116,9 @@ COMMERCIAL = [
     row("capacitor", ("ceramic-class1",), "v_peak", "v_rated", factor=0.7),  # §11 RAC benign
     row("capacitor", ("film",), "v_peak", "v_rated", factor=0.7),  # §12 RAC benign
     row("capacitor", ALL, "i_ripple_rms", "i_ripple", factor=1.0),  # §7 S21
+    # hold-up: needed at most 80 % of the lowest-tolerance capacitance (end of life at
+    # -20 %, aluminium electrolytic makers' life definitions: common practice, memory)
+    row("capacitor", ALL, "hold_up", None, limit=0.8, memory=True),
     row("capacitor", ("al-electrolytic", "al-polymer", "tantalum", "tantalum-polymer"),
         "t_hotspot", "t_max", margin=20.0),  # §7, §9 RAC
     row("capacitor", ("ceramic-class1", "ceramic-class2", "film"), "t_hotspot", "t_max",
