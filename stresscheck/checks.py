@@ -40,15 +40,23 @@ class Check:
     rating_needed: float | None = None  # [SI of the quantity] see _rating_needed
     waiver: dict | None = None  # {reason, approved_by, date, expires} when waived
     waived_status: str | None = None  # the status a waiver replaced
+    # which method set ``stress``: "corners" or "monte-carlo" (a sample beyond the corners)
+    method: str = "corners"
+    # filled by sampling.py and sensitivity.py when they run; absent from as_dict if None
+    monte_carlo: dict | None = None
+    rss: dict | None = None
+    sensitivity: list | None = None
 
     def as_dict(self) -> dict:
         out = {k: getattr(self, k) for k in (
             "ref", "role", "part", "kind", "quantity", "unit", "stress", "corner", "rating",
             "rating_key", "allowed", "ratio", "status", "rule", "rule_source", "stress_kind",
-            "basis", "note", "rating_needed")}
+            "basis", "note", "rating_needed", "method")}
         if self.waiver is not None:
             out["waiver"] = dict(self.waiver)
             out["waived_status"] = self.waived_status
+        out.update({k: getattr(self, k) for k in ("monte_carlo", "rss", "sensitivity")
+                    if getattr(self, k) is not None})
         return out
 
 
@@ -137,12 +145,7 @@ def check_stress(stress, policy, corners, temperatures=None) -> Check:
     g = int(np.argmax(ratio))
     rule = rules[int(governing[g])]
     r_val = ratio[g]
-    if not np.isfinite(r_val) or r_val > 1:
-        status = "fail"
-    elif r_val > policy.marginal_above:
-        status = "marginal"
-    else:
-        status = "pass"
+    status = status_of(r_val, policy)
     notes = []
     if not np.isfinite(r_val):
         notes.append("allowed value is zero or negative")
@@ -188,6 +191,25 @@ def device_temperatures(stresses) -> dict[str, np.ndarray]:
     """Each ref's own computed temperature [degC] over all corners: junction for
     semiconductors, hot spot for capacitors and magnetics."""
     return {s.ref: s.values for s in stresses if s.quantity in ("t_j", "t_hotspot")}
+
+
+def governing_rule(rules, part, kind: str):
+    """The strictest of ``rules`` that applies to corners of ``kind`` with a fixed
+    allowed value, or None. A rule whose allowed value depends on temperature
+    (``factor_vs_temperature``) has no single value here: when one applies, None is
+    returned and the caller compares stresses only (Monte Carlo, sampling.py)."""
+    applying = [r for r in rules if r.stress_kinds is None or kind in r.stress_kinds]
+    if any(r.curve is not None for r in applying):
+        return None
+    applying = [r for r in applying if r.allowed(part) is not None]
+    return min(applying, key=lambda r: r.allowed(part)) if applying else None
+
+
+def status_of(ratio: float, policy) -> str:
+    """fail above 1 (or not finite), marginal above the policy's ``marginal_above``."""
+    if not np.isfinite(ratio) or ratio > 1:
+        return "fail"
+    return "marginal" if ratio > policy.marginal_above else "pass"
 
 
 def run_checks(evaluation, policy) -> list[Check]:

@@ -44,6 +44,10 @@ def _parser() -> argparse.ArgumentParser:
     psub = ps.add_subparsers(dest="policy_command", required=True)
     show = psub.add_parser("show", help="print a policy rule by rule")
     show.add_argument("name", metavar="NAME_OR_FILE")
+    c.add_argument("--samples", type=int, default=None, metavar="N",
+                   help="also draw N Monte Carlo samples from the tolerances and ranges")
+    c.add_argument("--seed", type=int, default=0, metavar="S",
+                   help="seed of the Monte Carlo samples (default 0)")
     d = sub.add_parser("demo", help="run the shipped demo design")
     d.add_argument("--out", type=Path, default=Path(DEFAULT_OUT), metavar="DIR")
     v = sub.add_parser("verify", help="compare computed stresses with ngspice at the "
@@ -82,11 +86,13 @@ def demo_design() -> Path:
 
 
 def run_check(design_path: Path, parts, policy_name, out_dir: Path, *, date=None,
-              bom=None, swaps=()):
+              bom=None, swaps=(), samples=None, seed=0, progress=None):
     """Load, evaluate, check and write the reports. Returns (results, paths, checks).
 
     ``bom`` (a BOM file) and ``swaps`` ("REF=PART" texts) replace parts of the design
-    before it is evaluated; what they changed is recorded in results["substitutions"]."""
+    before it is evaluated; what they changed is recorded in results["substitutions"].
+    ``samples`` (with ``seed``) adds a Monte Carlo run (``sampling.run_monte_carlo``);
+    ``progress(done, total)`` is called after each chunk of samples."""
     import numpy as np
 
     from .checks import run_checks
@@ -96,6 +102,12 @@ def run_check(design_path: Path, parts, policy_name, out_dir: Path, *, date=None
     from .policy import load_policy
     from .report.writer import check_output, write_reports
     from .results import build_results
+    from .sensitivity import annotate
+
+    if samples is not None and samples < 1:
+        raise InputError(None, "--samples", f"must be 1 or more, got {samples}")
+    if seed is not None and seed < 0:
+        raise InputError(None, "--seed", f"must be 0 or more, got {seed}")
 
     out_dir = Path(out_dir)
     design = load_design(design_path, parts)
@@ -109,10 +121,20 @@ def run_check(design_path: Path, parts, policy_name, out_dir: Path, *, date=None
     with np.errstate(all="ignore"):
         evaluation = run(design)
         checks = run_checks(evaluation, policy)
+        rss_note = annotate(design, checks, policy)
+        sampling = None
+        if samples is not None:
+            from .sampling import run_monte_carlo
+            sampling = run_monte_carlo(design, checks, policy, samples, seed, progress)
+    # waivers last: a waiver covers the row's final status (corners or Monte Carlo)
     today = _dt.date.fromisoformat(date) if date else _today()
     apply_waivers(checks, design.waivers, today, design.path)
     with np.errstate(all="ignore"):
         results = build_results(evaluation, checks, policy)
+    if rss_note is not None:
+        results["notes"].append({"level": "warning", "text": rss_note})
+    if sampling is not None:
+        results["sampling"] = sampling.as_dict()
     if bom_record is not None:
         results.update(bom_record)
     _refuse_non_finite(results, design)
@@ -302,10 +324,23 @@ def _print_shadowed(results):
 
 def cmd_check(args) -> int:
     from .checks import exit_status
-    results, paths, checks = run_check(args.design, args.parts, args.policy, args.out,
-                                       bom=args.bom, swaps=args.swap)
+    from .progress import progress_for
+    bar = progress_for("samples") if args.samples is not None else None
+    try:
+        results, paths, checks = run_check(args.design, args.parts, args.policy, args.out,
+                                           bom=args.bom, swaps=args.swap,
+                                           samples=args.samples, seed=args.seed,
+                                           progress=bar)
+    finally:
+        if bar is not None:
+            bar.close()
     print(f"{results['design']}: {len(results['checks'])} checks over "
           f"{len(results['corners'])} corners, policy '{results['policy']}'")
+    if "sampling" in results:
+        raised = sum(1 for c in results["checks"] if c.get("method") == "monte-carlo")
+        print(f"  Monte Carlo: {results['sampling']['samples']} samples, seed "
+              f"{results['sampling']['seed']}; {raised} stress(es) raised beyond the "
+              "corner worst case")
     _print_substitutions(results)
     print(_summary_line(results))
     for line in _policy_lines(results):

@@ -18,8 +18,12 @@ from __future__ import annotations
 
 import itertools
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
+
+if TYPE_CHECKING:
+    from .units import Spread
 
 ENVELOPE_UNITS = {"input_voltage": "V", "output_current": "A", "ambient_temperature": "degC",
                   "output_voltage": "V", "switching_frequency": "Hz"}
@@ -93,6 +97,34 @@ def build_corners(design) -> CornerSet:
     if design.input_surge is not None:
         kind[columns["input_voltage"] == design.input_surge] = "transient"
     return CornerSet(ids, kind, columns, units)
+
+
+def input_spreads(design) -> tuple[dict[str, "Spread"], dict[str, str]]:
+    """Every input that spans corners, as its spread, named like the corner columns:
+    the steady envelope (input voltage min..max, the surge left out; output current
+    min..max, the current limit left out; ambient, output voltage, switching frequency)
+    and each part tolerance. Plain values come as spreads of one value.
+
+    Returns
+    -------
+    spreads : dict
+        Column name -> Spread [SI].
+    units : dict
+        Column name -> unit symbol.
+    """
+    spreads = {"input_voltage": design.input_voltage, "output_current": design.output_current,
+               "ambient_temperature": design.ambient_temperature,
+               "output_voltage": design.output_voltage,
+               "switching_frequency": design.switching_frequency}
+    units = dict(ENVELOPE_UNITS)
+    for comp in design.components:
+        for key, unit in TOLERANCE_KEYS.items():
+            spread = comp.part.spread(key) if key in comp.part.electrical else None
+            if spread is not None and spread.is_range:
+                name = f"{comp.refs[0]}.{key}"
+                spreads[name] = spread
+                units[name] = unit
+    return spreads, units
 
 
 def tolerance_column(corners: CornerSet, comp, key: str, default: float) -> np.ndarray:

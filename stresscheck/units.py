@@ -12,7 +12,7 @@ from __future__ import annotations
 import math
 import re
 import unicodedata
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from functools import lru_cache
 
 import pint
@@ -202,12 +202,23 @@ class Spread:
     """A value given as a nominal with its extremes [SI units].
 
     ``nom`` is always set (the mean of min and max when not given).
-    ``min``/``max`` equal ``nom`` for a plain value.
+    ``min``/``max`` equal ``nom`` for a plain value. ``distribution`` and ``sigma`` say
+    how Monte Carlo sampling draws the value (``check --samples``): "uniform" between
+    min and max (default), or "normal" around nom with standard deviation ``sigma``
+    (default (max − min)/6, i.e. tolerance/3), truncated at min and max. They take no
+    part in equality: corners use only min, nom and max.
     """
 
     min: float
     nom: float
     max: float
+    distribution: str = field(default="uniform", compare=False)
+    sigma: float | None = field(default=None, compare=False)
+
+    @property
+    def std(self) -> float:
+        """Standard deviation of a normal draw [unit of the value]."""
+        return self.sigma if self.sigma is not None else (self.max - self.min) / 6
 
     @property
     def is_range(self) -> bool:
@@ -233,14 +244,16 @@ def parse_spread(value, dimension: str, path, key: str, *, allow_range: bool = T
     if isinstance(value, dict):
         if not allow_range:
             raise InputError(path, key, "a single value is expected here, not a range")
-        allowed = ("min", "nom", "max", "tolerance")
+        allowed = ("min", "nom", "max", "tolerance", "distribution", "sigma")
         unknown = sorted(set(value) - set(allowed))
         if unknown:
             field_name = unknown[0] if unknown[0].isprintable() and len(unknown[0]) <= 60 \
                 else shorten(unknown[0])
             raise InputError(path, f"{key}.{field_name}", "unknown field in a range; "
-                             "expected min, nom, max or tolerance" + suggest(unknown[0],
-                                                                             allowed))
+                             "expected min, nom, max or tolerance (and optionally "
+                             "distribution, sigma)" + suggest(unknown[0], allowed))
+        how = _distribution(value, dimension, path, key)
+        value = {k: v for k, v in value.items() if k not in ("distribution", "sigma")}
         if "tolerance" in value:
             if "nom" not in value:
                 raise InputError(path, key, "a tolerance needs a nominal value 'nom'")
@@ -252,7 +265,7 @@ def parse_spread(value, dimension: str, path, key: str, *, allow_range: bool = T
                 raise InputError(path, f"{key}.tolerance",
                                  "tolerance must be between 0 % and 100 %")
             lo, hi = sorted((nom * (1 - tol), nom * (1 + tol)))
-            return Spread(lo, nom, hi)
+            return Spread(lo, nom, hi, *how)
         parts = {k: parse_quantity(value[k], dimension, path, f"{key}.{k}")
                  for k in ("min", "nom", "max") if k in value}
         if not parts:
@@ -265,6 +278,26 @@ def parse_spread(value, dimension: str, path, key: str, *, allow_range: bool = T
         nom = parts.get("nom", (lo + hi) / 2)
         if not lo <= nom <= hi:
             raise InputError(path, f"{key}.nom", "nom must lie between min and max")
-        return Spread(lo, nom, hi)
+        return Spread(lo, nom, hi, *how)
     number = parse_quantity(value, dimension, path, key)
     return Spread(number, number, number)
+
+
+DISTRIBUTIONS = ("uniform", "normal")  # how ``check --samples`` draws a spread
+
+
+def _distribution(value: dict, dimension: str, path, key: str) -> tuple[str, float | None]:
+    """The optional ``distribution`` and ``sigma`` of a range (sampling only)."""
+    how = value.get("distribution", "uniform")
+    if how not in DISTRIBUTIONS:
+        raise InputError(path, f"{key}.distribution", f"unknown distribution "
+                         f"{shorten(how)}; expected one of: " + ", ".join(DISTRIBUTIONS))
+    if "sigma" not in value:
+        return how, None
+    if how != "normal":
+        raise InputError(path, f"{key}.sigma", "sigma needs distribution = \"normal\"")
+    spread_dim = "temperature_difference" if dimension == "temperature" else dimension
+    sigma = parse_quantity(value["sigma"], spread_dim, path, f"{key}.sigma")
+    if not sigma > 0:
+        raise InputError(path, f"{key}.sigma", "sigma must be greater than zero")
+    return how, sigma
