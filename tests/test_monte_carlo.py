@@ -290,7 +290,8 @@ def test_rss_of_a_linear_stress_by_hand():
 
 
 def test_rss_and_sensitivity_reach_results_json(tmp_path):
-    path = write_buck(tmp_path, vin='{ min = "20 V", max = "36 V" }')
+    path = write_buck(tmp_path, vin='{ min = "20 V", max = "36 V" }',
+                      ta='{ min = "-40 degC", max = "60 degC" }')
     out = tmp_path / "out"
     assert main(["check", str(path), "--out", str(out), "--samples", "50",
                  "--seed", "2"]) == 0
