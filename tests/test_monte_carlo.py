@@ -42,7 +42,7 @@ PARTS = {
 [ratings]\nv_rated = "100 V"\ni_ripple = "3.5 A"\nt_max = "125 degC"
 [electrical]\ncapacitance = "4.7 uF"\nesr = "5 mohm"\n[thermal]\nr_th = "300 K/W"\n""",
     "cap-test-poly": """id = "cap-test-poly"\nkind = "capacitor"\ntechnology = "al-polymer"
-[ratings]\nv_rated = "25 V"\ni_ripple = "4.8 A"\nt_max = "105 degC"
+[ratings]\nv_rated = "25 V"\ni_ripple = "4.8 A"\nt_max = "105 degC"\nlife = "5000 h"
 [electrical]\ncapacitance = "330 uF"\nesr = "14 mohm"\n[thermal]\nr_th = "30 K/W"\n""",
 }
 DESIGN = """schema = "stresscheck.design/1"
