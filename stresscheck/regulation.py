@@ -29,6 +29,8 @@ def solve_duty(vout_of_duty, target, lo, hi, iterations: int = BISECT_ITERATIONS
     reachable = vout_of_duty(hi) >= target
     for _ in range(iterations):
         mid = (lo + hi) / 2
+        if np.all((mid == lo) | (mid == hi)):
+            break  # every interval is down to adjacent floats: further halvings are idle
         above = vout_of_duty(mid) >= target
         hi = np.where(above, mid, hi)
         lo = np.where(above, lo, mid)

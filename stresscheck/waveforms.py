@@ -149,6 +149,141 @@ class PWL:
         return q - mean[:, None, None]
 
 
+class PWQ:
+    """A periodic piecewise-quadratic waveform on a ``Grid``: in each segment
+    v(τ) = p0 + p1·τ + p2·τ² for 0 ≤ τ ≤ dt, with ``end`` its value at τ = dt (kept
+    apart so that a zero-length segment can still step, like a ``PWL``). Capacitor
+    voltages (the running integral of a piecewise-linear current) and their sums with
+    piecewise-linear waveforms are of this form; their extremes and means are exact.
+    """
+
+    __array_ufunc__ = None
+
+    def __init__(self, grid: Grid, p0, p1, p2, end):
+        self.grid, self.p0, self.p1, self.p2, self.end = grid, p0, p1, p2, end
+
+    @classmethod
+    def lift(cls, w) -> "PWQ":
+        """A ``PWL`` (or a PWQ, returned as is) as a PWQ."""
+        if isinstance(w, PWQ):
+            return w
+        dt = w.grid.dt
+        slope = np.divide(w.b - w.a, dt, out=np.zeros(np.shape(w.a)), where=dt > 0)
+        return cls(w.grid, np.asarray(w.a, float), slope, np.zeros_like(slope),
+                   np.asarray(w.b, float))
+
+    def __add__(self, other):
+        if isinstance(other, (PWL, PWQ)):
+            o = PWQ.lift(other)
+            return PWQ(self.grid, self.p0 + o.p0, self.p1 + o.p1, self.p2 + o.p2,
+                       self.end + o.end)
+        k = _column(other)
+        return PWQ(self.grid, self.p0 + k, self.p1, self.p2, self.end + k)
+
+    __radd__ = __add__
+
+    def __neg__(self):
+        return PWQ(self.grid, -self.p0, -self.p1, -self.p2, -self.end)
+
+    def __sub__(self, other):
+        return self + (-other)
+
+    def __rsub__(self, other):
+        return (-self) + other
+
+    def __mul__(self, k):
+        k = _column(k)
+        return PWQ(self.grid, self.p0 * k, self.p1 * k, self.p2 * k, self.end * k)
+
+    __rmul__ = __mul__
+
+    def segment_means(self) -> np.ndarray:
+        """(N, S) exact time average in each segment (the start value where dt = 0)."""
+        dt = self.grid.dt
+        return self.p0 + self.p1 * dt / 2 + self.p2 * dt ** 2 / 3
+
+    def mean_over(self, mask) -> np.ndarray:
+        """(N,) exact time average over the segments where ``mask`` is true."""
+        m = np.broadcast_to(np.asarray(mask, dtype=bool), self.p0.shape)
+        dt = np.where(m, self.grid.dt, 0.0)
+        return (dt * self.segment_means()).sum(axis=1) / dt.sum(axis=1)
+
+    def segment_max(self) -> np.ndarray:
+        """(N, S) exact maximum in each segment: its ends and, where the parabola
+        opens downwards, its vertex τ* = −p1/(2·p2) inside the segment."""
+        dt = self.grid.dt
+        with np.errstate(divide="ignore", invalid="ignore"):
+            tau = -self.p1 / (2 * self.p2)
+        inside = (self.p2 < 0) & (tau > 0) & (tau < dt)
+        tau = np.where(inside, tau, 0.0)
+        vertex = np.where(inside, self.p0 + self.p1 * tau + self.p2 * tau ** 2, -np.inf)
+        return np.maximum(np.maximum(self.p0, self.end), vertex)
+
+    def max(self, mask=None) -> np.ndarray:
+        """(N,) exact maximum over the segments where ``mask`` (S,) or (N, S) holds
+        (all by default); −inf where no segment does."""
+        seg = self.segment_max()
+        if mask is not None:
+            m = np.broadcast_to(np.asarray(mask, dtype=bool), seg.shape)
+            seg = np.where(m, seg, -np.inf)
+        return seg.max(axis=1)
+
+    def samples(self, k: int = SAMPLES_PER_SEGMENT) -> np.ndarray:
+        """(N, S, k) values at ``Grid.sample_times`` (the last one is ``end``)."""
+        t = self.grid.sample_times(k)
+        out = self.p0[:, :, None] + (self.p1[:, :, None] + self.p2[:, :, None] * t) * t
+        out[:, :, -1] = self.end
+        return out
+
+
+def select(states: np.ndarray, choices: list) -> PWQ:
+    """Per segment the waveform ``choices[states]`` (states (N, S) ints), as a PWQ."""
+    qs = [PWQ.lift(c) for c in choices]
+    idx = np.asarray(states)
+
+    def pick(name):
+        stack = np.stack([np.broadcast_to(getattr(q, name), idx.shape) for q in qs])
+        return np.take_along_axis(stack, idx[None], axis=0)[0]
+
+    return PWQ(qs[0].grid, pick("p0"), pick("p1"), pick("p2"), pick("end"))
+
+
+def _column(k):
+    """A scalar, (N,) or (N, S) factor, shaped to broadcast against (N, S)."""
+    k = np.asarray(k, dtype=float)
+    return k[:, None] if k.ndim == 1 else k
+
+
+def capacitor_voltage(i_c: PWL, capacitance, esr, v_mean) -> PWQ:
+    """Terminal voltage of a capacitor with ESR carrying the periodic current ``i_c``,
+    exactly, as a piecewise quadratic [V].
+
+    v(t) = V_mean + (1/C)·(∫i_c dt − its period mean) + ESR·i_c(t); with i_c = a + s·τ
+    in a segment starting at charge q_0: p0 = V_mean + (q_0 − q̄)/C + ESR·a,
+    p1 = a/C + ESR·s, p2 = s/(2C) (the integral of a straight line).
+
+    Parameters
+    ----------
+    i_c : PWL
+        Capacitor current [A]; zero mean (charge balance in steady state).
+    capacitance, esr, v_mean : (N,) or scalar
+        [F], [ohm], mean terminal voltage [V].
+    """
+    dt, a, b = i_c.grid.dt, i_c.a, i_c.b
+    slope = np.divide(b - a, dt, out=np.zeros_like(a), where=dt > 0)
+    seg = dt * (a + b) / 2
+    start = np.concatenate([np.zeros((dt.shape[0], 1)), np.cumsum(seg, axis=1)[:, :-1]],
+                           axis=1)
+    seg_mean = start * dt + a * dt ** 2 / 2 + slope * dt ** 3 / 6
+    q0 = start - (seg_mean.sum(axis=1) / i_c.grid.period)[:, None]
+    c, r, v = _column(capacitance), _column(esr), _column(v_mean)
+    p0 = v + q0 / c + r * a
+    p1 = a / c + r * slope
+    p2 = slope / (2 * c)
+    end = v + (q0 + seg) / c + r * b
+    return PWQ(i_c.grid, p0 + 0 * p1, p1 + 0 * p0, p2 + 0 * p0, end + 0 * p0)
+
+
 def capacitor_voltage_samples(i_c: PWL, capacitance, esr, v_mean,
                               k: int = SAMPLES_PER_SEGMENT) -> np.ndarray:
     """Terminal voltage of a capacitor with ESR carrying the periodic current ``i_c``.

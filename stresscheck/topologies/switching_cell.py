@@ -64,12 +64,12 @@ undamped limit; damping lowers it).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, fields, is_dataclass, replace
 
 import numpy as np
 
 from ..regulation import solve_duty
-from ..waveforms import PWL, Grid, capacitor_voltage_samples, max_over, per_corner
+from ..waveforms import PWL, PWQ, Grid, capacitor_voltage, per_corner, select
 from .base import CapacitorBank, Device, StageResult
 
 ON, DEAD_A, OFF, DEAD_B, IDLE = range(5)  # intervals of the period
@@ -122,8 +122,8 @@ class Solution:
     grid: Grid
     i_l: PWL  # [A]
     states: np.ndarray  # (N, S) int conduction state per grid segment
-    v_bus: np.ndarray  # (N, S, k) input-capacitor terminal voltage samples [V]
-    v_out: np.ndarray  # (N, S, k) output-capacitor terminal voltage samples [V]
+    v_bus: PWQ  # input-capacitor terminal voltage [V], exact piecewise quadratic
+    v_out: PWQ  # output-capacitor terminal voltage [V], exact piecewise quadratic
     i_cin: PWL  # [A] into the input capacitor bank
     i_cout: PWL  # [A] into the output capacitor bank
     i_dc: np.ndarray  # [A] DC current from the source
@@ -159,21 +159,20 @@ def source_table(c: Cell, v_bus: np.ndarray, v_out: np.ndarray):
     return e, r
 
 
-def switch_node(c: Cell, states, i, v_bus, v_out):
-    """Switch-node voltage samples [V] (N, S, k) from the currents ``i`` [A] and the
-    capacitor voltage samples ``v_bus``, ``v_out`` [V], all (N, S, k)."""
-    st = states[:, :, None]
-    r_a, a_f0, a_rd = per_corner(c.a.r_on), per_corner(c.a.v_f0), per_corner(c.a.r_d)
-    p_f0, p_rd = per_corner(c.p.v_f0), per_corner(c.p.r_d)
-    r_p = per_corner(c.p.r_on if c.p.r_on is not None else 0.0)
+def switch_node(c: Cell, states, i: PWL, v_bus: PWQ, v_out: PWQ) -> PWQ:
+    """Switch-node voltage [V], exact per segment, from the inductor current ``i`` [A]
+    and the capacitor voltages ``v_bus``, ``v_out`` [V] (the relations of
+    ``source_table``, each segment in its conduction state ``states`` (N, S))."""
+    r_a, a_f0, a_rd = (per_corner(x, 1) for x in (c.a.r_on, c.a.v_f0, c.a.r_d))
+    p_f0, p_rd = per_corner(c.p.v_f0, 1), per_corner(c.p.r_d, 1)
+    r_p = per_corner(c.p.r_on if c.p.r_on is not None else 0.0, 1)
     if c.kind == "buck":
-        choices = [v_bus - r_a * i, -(p_f0 + p_rd * i), -r_p * i, v_bus + a_f0 - a_rd * i, v_out]
+        choices = [v_bus - i * r_a, -(i * p_rd + p_f0), i * -r_p, v_bus + a_f0 - i * a_rd,
+                   v_out]
     else:
-        choices = [r_a * i, v_out + p_f0 + p_rd * i, v_out + r_p * i, -a_f0 + a_rd * i, v_bus]
-    out = np.zeros_like(i)
-    for s, v in enumerate(choices):
-        out = np.where(st == s, v, out)
-    return out
+        choices = [i * r_a, v_out + p_f0 + i * p_rd, v_out + i * r_p, i * a_rd - a_f0,
+                   v_bus]
+    return select(states, choices)
 
 
 def _pick(table, states):
@@ -284,13 +283,8 @@ def _delivered(c: Cell, dt, a, b, states):
     return (dt * deliver * (a + b) / 2).sum(axis=1) / c.ts
 
 
-def _segment_means(samples):
-    """(N, S) time average of (N, S, k) uniformly sampled values in each segment."""
-    return (samples[:, :, 1:] + samples[:, :, :-1]).mean(axis=2) / 2
-
-
 def _capacitors(c: Cell, grid: Grid, i_l: PWL, states):
-    """Input and output capacitor currents and terminal-voltage samples."""
+    """Input and output capacitor currents and terminal voltages (exact PWQ)."""
     if c.kind == "buck":
         i_src = i_l.only(_from_source(c, states))
         i_load_path = i_l
@@ -300,8 +294,8 @@ def _capacitors(c: Cell, grid: Grid, i_l: PWL, states):
     i_dc = i_src.mean()
     i_cin = i_src * -1.0 + i_dc
     i_cout = i_load_path - c.io
-    v_bus = capacitor_voltage_samples(i_cin, c.cin.c, c.cin.esr, c.v_in)
-    v_out = capacitor_voltage_samples(i_cout, c.cout.c, c.cout.esr, c.vo)
+    v_bus = capacitor_voltage(i_cin, c.cin.c, c.cin.esr, c.v_in)
+    v_out = capacitor_voltage(i_cout, c.cout.c, c.cout.esr, c.vo)
     return i_dc, i_cin, i_cout, v_bus, v_out
 
 
@@ -338,17 +332,24 @@ def solve(c: Cell) -> Solution:
         duty, dt, a, b, states = duty_ccm, dt_c, a_c, b_c, st_c
         reachable = np.ones(n, bool)
         if from_zero.any():
+            # bisect only the corners that start from zero current (each corner's
+            # search is independent, so the others need not be evaluated)
+            idx = np.flatnonzero(from_zero)
+            cz, v_tab_z = subset_cell(c, idx), v_tab[idx]
+
             def delivered(d):
-                return _delivered(c, *_from_zero(c, v_tab, d))
+                return _delivered(cz, *_from_zero(cz, v_tab_z, d))
             if c.synchronous:
                 # the zero falls inside a dead time only near the CCM duty; a boost's
                 # delivered current turns over at high duty, so stay near it
-                span = 0.05 + 4 * c.td / c.ts
-                lo, hi = np.maximum(duty_ccm - span, 0.0), np.minimum(duty_ccm + span,
-                                                                      c.d_max)
+                span = 0.05 + 4 * cz.td / cz.ts
+                lo = np.maximum(duty_ccm[idx] - span, 0.0)
+                hi = np.minimum(duty_ccm[idx] + span, cz.d_max)
             else:
-                lo, hi = 0.0, c.d_max  # DCM: delivered current rises with D throughout
-            d_z, reachable = solve_duty(delivered, c.io, lo, hi)
+                lo, hi = 0.0, cz.d_max  # DCM: delivered current rises with D throughout
+            d_sub, reach_sub = solve_duty(delivered, cz.io, lo, hi)
+            d_z, reachable = duty_ccm.copy(), np.ones(n, bool)
+            d_z[idx], reachable[idx] = d_sub, reach_sub
             dt_z, a_z, b_z, st_z = _from_zero(c, v_tab, d_z)
             if c.synchronous:  # consistent only where the current reaches zero in DEAD_B
                 from_zero &= reachable & (dt_z[:, first(IDLE)] > 0)
@@ -363,7 +364,7 @@ def solve(c: Cell) -> Solution:
         grid = Grid(np.maximum(dt, 0.0))
         i_l = grid.wave(a, b)
         i_dc, i_cin, i_cout, v_bus, v_out = _capacitors(c, grid, i_l, states)
-        v_bus_seg, v_out_seg = _segment_means(v_bus), _segment_means(v_out)
+        v_bus_seg, v_out_seg = v_bus.segment_means(), v_out.segment_means()
         change = np.abs(duty - duty_prev)
         duty_prev = duty
         if np.all(change < DUTY_TOL):
@@ -419,14 +420,14 @@ def stage_result(c: Cell, sol: Solution, p_role: str) -> StageResult:
         body[a_key] = (-i_l).only(st == S_A_BODY)
     else:
         currents[p_key] = i_l.only(st == S_P_FWD)
-    v_sw = switch_node(c, st, i_l.samples(), sol.v_bus, sol.v_out)
+    v_sw = switch_node(c, st, i_l, sol.v_bus, sol.v_out)
     if c.kind == "buck":
         v_a, v_p = sol.v_bus - v_sw, v_sw
     else:
         v_a, v_p = v_sw, sol.v_out - v_sw
-    v_block = {a_key: max_over(v_a), p_key: max_over(v_p),
-               ("input-capacitor", 0): max_over(sol.v_bus),
-               ("output-capacitor", 0): max_over(sol.v_out)}
+    v_block = {a_key: v_a.max(), p_key: v_p.max(),
+               ("input-capacitor", 0): sol.v_bus.max(),
+               ("output-capacitor", 0): sol.v_out.max()}
     z = np.zeros(n)
     return StageResult(duty=sol.duty, grid=sol.grid, currents=currents, v_block=v_block,
                        input_current=sol.i_dc, winding_loss=z, b_peak=None, i_m_peak=z,
@@ -452,6 +453,22 @@ def model_notes(c: Cell, sol: Solution, p_role: str) -> list[str]:
                      "emulation); the dead time then returns it through the switch's "
                      "body diode")
     return notes
+
+
+def subset_cell(c: Cell, idx: np.ndarray) -> Cell:
+    """The cell restricted to the corners ``idx``: every per-corner array indexed."""
+    n = c.v_in.shape[0]
+
+    def take(x):
+        if isinstance(x, np.ndarray) and x.ndim >= 1 and x.shape[0] == n:
+            return x[idx]
+        return x
+
+    def part(obj):
+        return replace(obj, **{f.name: take(getattr(obj, f.name)) for f in fields(obj)})
+
+    return replace(c, **{f.name: part(v) if is_dataclass(v) else take(v)
+                         for f in fields(c) for v in [getattr(c, f.name)]})
 
 
 def cell_from_stage(st, kind: str, p_role: str) -> Cell:
