@@ -141,7 +141,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..regulation import solve_duty
-from ..waveforms import (Grid, capacitor_voltage_samples, max_over, mean_over_samples,
+from ..waveforms import (Grid, capacitor_voltage, capacitor_voltage_samples, max_over,
                          per_corner)
 from .base import Layout, RoleSpec, Stage, StageResult
 
@@ -414,10 +414,10 @@ def evaluate(st: Stage) -> StageResult:
         i_dc = i_p.mean()
         i_cin = i_dc - i_p
         i_cout = i_s - io
-        va_new = (mean_over_samples(capacitor_voltage_samples(i_cin, cin.c, 0.0, v_in),
-                                    grid, MASK_ON) + cin.esr * i_dc)
-        vc_new = (mean_over_samples(capacitor_voltage_samples(i_cout, cout.c, 0.0, vo),
-                                    grid, MASK_OFF) - cout.esr * io)
+        va_new = (capacitor_voltage(i_cin, cin.c, 0.0, v_in).mean_over(MASK_ON)
+                  + cin.esr * i_dc)
+        vc_new = (capacitor_voltage(i_cout, cout.c, 0.0, vo).mean_over(MASK_OFF)
+                  - cout.esr * io)
         done = (np.allclose(va_new, va, rtol=PASS_RTOL, atol=0)
                 and np.allclose(vc_new, vc, rtol=PASS_RTOL, atol=0))
         va, vc = va_new, vc_new
