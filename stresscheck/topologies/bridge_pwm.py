@@ -60,8 +60,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..waveforms import (Grid, capacitor_voltage_samples, max_over, mean_over_samples,
-                         per_corner)
+from ..waveforms import PWL, Grid, capacitor_voltage, per_corner
 from .base import Stage, StageResult
 from .bridge_rectifier import GROUPS, rectifier_groups
 
@@ -248,25 +247,24 @@ def evaluate(st: Stage) -> StageResult:
             i_c1 = i_a * -1 + i_dc
             i_c2 = i_b * -1 + i_dc
             c1, c2 = st.capacitors[("split-capacitor", 0)], st.capacitors[("split-capacitor", 1)]
-            v_c1 = capacitor_voltage_samples(i_c1, c1.c, c1.esr, st.v_in / 2)
-            v_c2 = capacitor_voltage_samples(i_c2, c2.c, c2.esr, st.v_in / 2)
+            v_c1 = capacitor_voltage(i_c1, c1.c, c1.esr, st.v_in / 2)
+            v_c2 = capacitor_voltage(i_c2, c2.c, c2.esr, st.v_in / 2)
             bus = v_c1 + v_c2
             src1, src2 = v_c1, v_c2
             currents[("split-capacitor", 0)] = i_c1
             currents[("split-capacitor", 1)] = i_c2
-            v_block[("split-capacitor", 0)] = max_over(v_c1)
-            v_block[("split-capacitor", 1)] = max_over(v_c2)
+            v_block[("split-capacitor", 0)] = v_c1.max()
+            v_block[("split-capacitor", 1)] = v_c2.max()
         else:
             i_bus = i_a + i_b
             i_dc = i_bus.mean()
             i_cin = i_dc - i_bus
             cin = st.capacitors[("input-capacitor", 0)]
-            bus = capacitor_voltage_samples(i_cin, cin.c, cin.esr, st.v_in)
+            bus = capacitor_voltage(i_cin, cin.c, cin.esr, st.v_in)
             src1 = src2 = bus
             currents[("input-capacitor", 0)] = i_cin
-            v_block[("input-capacitor", 0)] = max_over(bus)
-        v_src_new = (mean_over_samples(src1, grid, MASK_ON1)
-                     + mean_over_samples(src2, grid, MASK_ON2)) / 2
+            v_block[("input-capacitor", 0)] = bus.max()
+        v_src_new = (src1.mean_over(MASK_ON1) + src2.mean_over(MASK_ON2)) / 2
         settled = (np.allclose(v_src_new, v_src, rtol=1e-9, atol=0)
                    and np.allclose(i_m_new, i_m, rtol=1e-9, atol=1e-12))
         v_src, i_m = v_src_new, i_m_new
@@ -284,43 +282,42 @@ def evaluate(st: Stage) -> StageResult:
             else:
                 currents[("rectifier", k)] = cur
 
-    # blocking voltages ---------------------------------------------------------------
-    ia_s, ib_s = i_a.samples(), i_b.samples()
-    l1_s = i_l[0].samples()
+    # blocking voltages (exact: capacitor voltages are piecewise quadratic, the rest
+    # piecewise linear) -------------------------------------------------------------------
+    l1 = i_l[0]
     if top == "push-pull":
         # off switch: bus + emf of the conducting half (coupled winding of equal turns)
-        v_q0 = max_over(2 * src2 - (per_corner(switch_r[1]) + xf.r_p) * ib_s, MASK_ON2)
-        v_q1 = max_over(2 * src1 - (per_corner(switch_r[0]) + xf.r_p) * ia_s, MASK_ON1)
-        bus_max = max_over(bus)
+        v_q0 = (src2 * 2 - i_b * (per_corner(switch_r[1], 1) + xf.r_p)).max(MASK_ON2)
+        v_q1 = (src1 * 2 - i_a * (per_corner(switch_r[0], 1) + xf.r_p)).max(MASK_ON1)
+        bus_max = bus.max()
         v_block[("switch", 0)] = np.maximum(v_q0, bus_max)
         v_block[("switch", 1)] = np.maximum(v_q1, bus_max)
     else:
-        bus_max = max_over(bus)
+        bus_max = bus.max()
         for k in range(len(switch_r)):
             v_block[("switch", k)] = bus_max
-    # primary emf during each on-interval, sampled
-    emf1 = src1 - per_corner(r_prim) * ia_s
-    emf2 = src2 - per_corner(r_prim) * ib_s
+    # primary emf during each on-interval
+    emf1 = src1 - i_a * per_corner(r_prim, 1)
+    emf2 = src2 - i_b * per_corner(r_prim, 1)
     if doubler:
-        l2_s = i_l[1].samples()
-        both_s = l1_s + l2_s
-        v_a = max_over(n * emf2 - r_s * l2_s - gb.drop(both_s), MASK_ON2)
-        v_b = max_over(n * emf1 - r_s * l1_s - ga.drop(both_s), MASK_ON1)
+        l2 = i_l[1]
+        both = l1 + l2
+        v_a = (emf2 * n - l2 * r_s - _drop(gb, both)).max(MASK_ON2)
+        v_b = (emf1 * n - l1 * r_s - _drop(ga, both)).max(MASK_ON1)
     elif rect == "center-tap":
         # blocking rectifier sees both secondary halves less the conducting one's drop
-        v_a = max_over(2 * n * emf2 - r_s * l1_s - gb.drop(l1_s), MASK_ON2)
-        v_b = max_over(2 * n * emf1 - r_s * l1_s - ga.drop(l1_s), MASK_ON1)
+        v_a = (emf2 * (2 * n) - l1 * r_s - _drop(gb, l1)).max(MASK_ON2)
+        v_b = (emf1 * (2 * n) - l1 * r_s - _drop(ga, l1)).max(MASK_ON1)
     else:
-        v_a = max_over(n * emf2 - r_s * l1_s - gb.drop(l1_s), MASK_ON2)
-        v_b = max_over(n * emf1 - r_s * l1_s - ga.drop(l1_s), MASK_ON1)
+        v_a = (emf2 * n - l1 * r_s - _drop(gb, l1)).max(MASK_ON2)
+        v_b = (emf1 * n - l1 * r_s - _drop(ga, l1)).max(MASK_ON1)
     for k in a_pos:
         v_block[("rectifier", k)] = v_a
     for k in b_pos:
         v_block[("rectifier", k)] = v_b
     cout = st.capacitors[("output-capacitor", 0)]
-    v_out = capacitor_voltage_samples(currents[("output-capacitor", 0)], cout.c, cout.esr,
-                                      st.vo)
-    v_block[("output-capacitor", 0)] = max_over(v_out)
+    v_out = capacitor_voltage(currents[("output-capacitor", 0)], cout.c, cout.esr, st.vo)
+    v_block[("output-capacitor", 0)] = v_out.max()
 
     # transformer ------------------------------------------------------------------------
     if top == "push-pull":
@@ -363,3 +360,12 @@ def evaluate(st: Stage) -> StageResult:
                        regime=np.full(io.shape, "CCM", dtype=object),
                        notes=["switch and rectifier voltages are before any leakage spike or ringing; "
                               "leakage inductance is not modelled with PWM modulation"])
+
+
+def _drop(group, i: PWL) -> PWL:
+    """Conduction drop [V] of a rectifier group carrying ``i`` [A] as a waveform: the
+    channel R_DS(on)·i of synchronous rectifiers, v_f0 + r_d·i of diodes (the relation
+    of ``RectifierGroup.drop``)."""
+    if group.sync:
+        return i * per_corner(group.r_on, 1)
+    return i * per_corner(group.r_d, 1) + per_corner(group.v_f0, 1)
