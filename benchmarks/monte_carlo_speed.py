@@ -94,11 +94,12 @@ def engine_figures(path: Path, spice_corners: int) -> dict:
             growth[n] = time.perf_counter() - t0
     spice = None
     if spice_corners:
+        from stresscheck.spice.circuit import circuit_at
         from stresscheck.spice.simulate import simulate
         picks = np.linspace(0, corners.size - 1, spice_corners).astype(int)
         t0 = time.perf_counter()
         for i in picks:
-            simulate(ev.circuit_at(int(i)))
+            simulate(circuit_at(ev, int(i)))
         spice = (time.perf_counter() - t0) / len(picks)
     return {"corners": corners.size, "per_corner": per_corner, "growth": growth,
             "spice": spice, "parts": sum(len(c.refs) for c in design.components)}
