@@ -329,3 +329,39 @@ def test_progress_only_on_a_terminal():
     text = stream.getvalue()
     assert "\r" in text and " 25.0 %" in text and "100.0 %" in text
     assert text.endswith("\n")
+
+
+# --- every topology -----------------------------------------------------------------
+
+EXAMPLES = sorted(p.parent.name for p in
+                  (__import__("pathlib").Path(__file__).parent.parent / "examples")
+                  .glob("*/design.toml"))
+
+
+@pytest.mark.parametrize("example", EXAMPLES)
+def test_all_three_methods_run_on_every_example(example):
+    """Corners, Monte Carlo and RSS on each shipped example, with the invariants that
+    hold whatever the design: ordered percentiles no larger than the maximum, counts
+    that add up, shares of the RSS spread adding up to one."""
+    from pathlib import Path
+    path = Path(__file__).parent.parent / "examples" / example / "design.toml"
+    design, policy, checks = checked(path)
+    with np.errstate(all="ignore"):
+        annotate(design, checks, policy)
+        run_monte_carlo(design, checks, policy, 64, seed=0)
+    computed = [c for c in checks if c.status != "not-computed"]
+    assert computed
+    for c in computed:
+        mc = c.monte_carlo
+        assert mc["samples"] == 64 and c.method in ("corners", "monte-carlo")
+        if mc["max"] is None:
+            continue
+        assert mc["p50"] <= mc["p95"] <= mc["p99"] <= mc["max"]
+        assert sum(mc["histogram"]["counts"]) == 64 - mc.get("not_computed", 0)
+        assert mc["p_exceed"] is None or 0.0 <= mc["p_exceed"] <= 1.0
+        if c.method == "monte-carlo":
+            assert c.stress == mc["max"] and c.corner.startswith("s")
+        if c.rss is not None:
+            assert c.rss["value"] >= c.rss["nominal"]
+            shares = sum(r["share"] for r in c.sensitivity)
+            assert shares == pytest.approx(1.0) or shares == 0.0
