@@ -102,8 +102,8 @@ def build_corners(design) -> CornerSet:
 def input_spreads(design) -> tuple[dict[str, "Spread"], dict[str, str]]:
     """Every input that spans corners, as its spread, named like the corner columns:
     the steady envelope (input voltage min..max, the surge left out; output current
-    min..max, the current limit left out; ambient, output voltage, switching frequency)
-    and each part tolerance. Plain values come as spreads of one value.
+    min..max, the current limit left out; ambient, output voltage, switching frequency,
+    line frequency of an AC input) and each part tolerance. Plain values come as spreads of one value.
 
     Returns
     -------
@@ -117,6 +117,9 @@ def input_spreads(design) -> tuple[dict[str, "Spread"], dict[str, str]]:
                "output_voltage": design.output_voltage,
                "switching_frequency": design.switching_frequency}
     units = dict(ENVELOPE_UNITS)
+    if getattr(design, "line_frequency", None) is not None:
+        spreads["line_frequency"] = design.line_frequency
+        units["line_frequency"] = "Hz"
     for comp in design.components:
         for key, unit in TOLERANCE_KEYS.items():
             spread = comp.part.spread(key) if key in comp.part.electrical else None
