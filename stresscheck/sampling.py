@@ -270,7 +270,7 @@ def _raise(check, tally: Tally, steady, policy) -> bool:
             return False
         check.ratio, check.allowed = ratio, tally.allowed
         check.rule, check.rule_source = rule.id, rule.source
-        check.rating, check.rating_key = rating, rule.rating
+        check.rating, check.rating_key = rating, rule.rating_key
         check.status = status_of(ratio, policy)
     elif tally.max - check.stress <= RAISE_TOLERANCE * abs(check.stress):
         return False
