@@ -13,7 +13,7 @@ from pathlib import Path
 from . import __version__, schema
 from .checks import ROLE_ORDER, summarise, uncovered
 from .parts import shipped_library
-from .report.cautions import CAUTIONS
+from .texts import CAUTIONS
 
 LOSSES_INCLUDED = (
     "MOSFET conduction: R_DS(on) at the solved junction temperature × I_rms²",

@@ -16,9 +16,9 @@ import pytest
 from stresscheck import fsio
 from stresscheck.errors import InputError
 from stresscheck.report import writer as writer_mod
-from stresscheck.report.cautions import CAUTIONS
-from stresscheck.report.html import (MARKER, format_ratio, format_value, render_html,
-                                     sort_findings)
+from stresscheck.report.html import MARKER, render_html
+from stresscheck.report.view import format_ratio, format_value, sort_findings
+from stresscheck.texts import CAUTIONS
 from stresscheck.report.writer import write_reports
 from stresscheck.report.xlsx import CHECK_COLUMNS, render_xlsx
 

@@ -3,6 +3,6 @@ the spreadsheet and the JSON file.
 
 ``html.render_html`` and ``xlsx.render_xlsx`` are pure functions of (results, context);
 ``writer.write_reports`` writes all three files atomically and refuses to overwrite files
-that are not earlier stresscheck reports. ``cautions.CAUTIONS`` is the safety and scope
+that are not earlier stresscheck reports. ``stresscheck.texts.CAUTIONS`` is the safety and scope
 text that every report carries.
 """

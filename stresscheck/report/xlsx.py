@@ -20,10 +20,10 @@ from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
 from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter
 
-from .cautions import CAUTIONS
-from .html import (OTHER_COLOUR, STATUS_COLOURS, STATUS_ORDER,
-                   corner_columns, count_statuses, display_value, policy_label,
-                   sort_findings, tool_version, unit_label)
+from ..texts import CAUTIONS
+from .view import (OTHER_COLOUR, STATUS_COLOURS, STATUS_ORDER,
+                   corner_columns, count_statuses, display_value, sort_findings, tool_version,
+                   unit_label)
 
 CHECK_COLUMNS = ("ref", "role", "part", "kind", "quantity", "unit", "stress", "allowed",
                  "rating", "rating key", "ratio", "status", "rule", "rule source", "corner",

@@ -1,5 +1,9 @@
-"""Safety and scope statements printed in every report (HTML top and bottom, spreadsheet
-"About" sheet)."""
+"""Texts that results carry and every report prints: the safety and scope statements
+(HTML top and bottom, spreadsheet summary sheet, results.json ``cautions``).
+
+Below both computing and rendering: ``results.py`` and ``report/`` import from here, and
+this module imports nothing of the package.
+"""
 
 from __future__ import annotations
 
