@@ -13,6 +13,7 @@ from pathlib import Path
 from . import schema
 from .errors import InputError
 from .parts import Part, PartLibrary, shipped_library
+from .review import load_review
 from .tomlio import (check_keys, optional_text, read_toml, require_str, require_table,
                      shorten, type_name)
 from .topologies import check_envelope, layout_for
@@ -57,7 +58,7 @@ class Design:
     line_frequency: Spread | None = None  # [Hz], input = "ac" only
     hold_up_time: float | None = None  # [s]
     hold_up_voltage: float | None = None  # [V] lowest bus voltage the load accepts
-    waivers: list = field(default_factory=list)  # waivers.Waiver, see waivers.py
+    review: dict = field(default_factory=dict)  # [review] sign-off block (review.py)
 
     def by_role(self, role: str) -> list[Component]:
         return [c for c in self.components if c.role == role]
@@ -100,7 +101,7 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
             raise InputError(folder, None, "--parts expects a folder of part sheets, but "
                              "this is a file")
     doc = read_toml(path, "design file")
-    check_keys(doc, ("schema", "converter", "operating", "components", "bom", "waivers"),
+    check_keys(doc, ("schema", "converter", "operating", "components", "bom", "review"),
                path)
     version = require_str(doc, "schema", path)
     if version != schema.DESIGN_SCHEMA:
@@ -176,7 +177,7 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
     _load_line(design, op, spread, scalar)
     library = PartLibrary(part_folders(path, parts_dirs))
     design.components = _load_components(doc, path, library)
-    design.waivers = read_waivers(doc, path, design.components)
+    design.review = load_review(doc, path)
     check_envelope(design)  # what the topology cannot produce, before its options
     layout = layout_for(design)  # raises on unsupported combinations
     layout.validate(design)

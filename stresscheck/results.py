@@ -13,6 +13,8 @@ from pathlib import Path
 from . import __version__, schema
 from .checks import ROLE_ORDER, summarise, uncovered
 from .parts import shipped_library
+from .runid import stamp_run_id
+from .sweeps import input_sweeps
 from .texts import CAUTIONS
 
 LOSSES_INCLUDED = (
@@ -73,7 +75,7 @@ def build_results(evaluation, checks, policy) -> dict:
         corner_rows.append(row)
     units = dict(corners.units)
     units["duty"] = "1"
-    return {
+    doc = {
         "schema": schema.RESULTS_SCHEMA,
         "design": design.name,
         "policy": policy.name,
@@ -94,7 +96,12 @@ def build_results(evaluation, checks, policy) -> dict:
         "corner_units": units,
         "corners": corner_rows,
         "checks": [c.as_dict() for c in rows],
+        "sweeps": input_sweeps(evaluation, rows),
     }
+    review = getattr(design, "review", None)
+    if review:
+        doc["review"] = dict(review)
+    return stamp_run_id(doc)
 
 
 SHIPPED = "(shipped library)"

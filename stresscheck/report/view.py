@@ -237,3 +237,68 @@ def tool_version(results: dict, context: dict) -> str:
     return str(context.get("tool_version") or tool.get("version") or DASH)
 
 
+
+
+# --------------------------------------------------------------------------- shared blocks
+
+SIGNATURES = (("Prepared", "prepared"), ("Reviewed", "reviewed"), ("Approved", "approved"))
+
+
+def revision(results: dict, context: dict) -> str:
+    """Design revision: the design's ``[review] revision``, else ``context["revision"]``."""
+    review = results.get("review") or {}
+    return str(review.get("revision") or (context or {}).get("revision") or "")
+
+
+def signoff(results: dict) -> list[dict]:
+    """The three signature lines: ``{"role", "name", "date"}``, blanks where not given."""
+    review = results.get("review") or {}
+    return [{"role": label, "name": str(review.get(f"{key}_by") or ""),
+             "date": str(review.get(f"{key}_date") or "")} for label, key in SIGNATURES]
+
+
+def policy_label(results: dict) -> str:
+    """Policy name with its title and version where results carry ``policy_details``."""
+    details = results.get("policy_details") or {}
+    name = str(results.get("policy") or details.get("name") or DASH)
+    extra = []
+    if details.get("title"):
+        extra.append(str(details["title"]))
+    if details.get("version") not in (None, ""):
+        extra.append(f"version {details['version']}")
+    return f"{name} ({', '.join(extra)})" if extra else name
+
+
+def eng_scale(values, unit: str | None) -> tuple[float, str]:
+    """A common SI prefix for a column of values: (divisor, printable unit).
+
+    Parameters
+    ----------
+    values
+        Numbers in ``unit`` (None and non-numbers ignored).
+    unit
+        SI unit from results.json.
+
+    Returns
+    -------
+    tuple
+        ``(10**exp, prefix + unit label)`` with exp a multiple of 3 chosen from the
+        largest magnitude, e.g. farads around 2.6e-4 -> ``(1e-6, "µF")``; units without
+        prefixes (°C, ratios) keep ``(1.0, label)``.
+    """
+    numbers = [abs(v) for v in values if isinstance(v, (int, float))
+               and not isinstance(v, bool) and math.isfinite(v) and v != 0]
+    if unit not in _PREFIXABLE or not numbers:
+        return 1.0, unit_label(unit)
+    exp = int(math.floor(math.log10(max(numbers)) / 3) * 3)
+    exp = max(min(exp, 12), -15)
+    return 10.0 ** exp, f"{_PREFIXES[exp]}{unit_label(unit)}"
+
+
+def round_sig(value, digits: int = 4):
+    """``value`` rounded to ``digits`` significant figures (None and text unchanged)."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return value
+    if not math.isfinite(value) or value == 0:
+        return value
+    return _round_sig(value, digits)
