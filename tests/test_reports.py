@@ -17,10 +17,12 @@ from stresscheck import fsio
 from stresscheck.errors import InputError
 from stresscheck.report import writer as writer_mod
 from stresscheck.report.html import MARKER, render_html
+from stresscheck.runid import stamp_run_id
 from stresscheck.report.view import format_ratio, format_value, sort_findings
 from stresscheck.texts import CAUTIONS
 from stresscheck.report.writer import write_reports
-from stresscheck.report.xlsx import CHECK_COLUMNS, render_xlsx
+from stresscheck.report.table import BASE_COLUMNS
+from stresscheck.report.xlsx import render_xlsx
 
 CONTEXT = {"date": "2026-12-01", "tool_version": "0.1.0"}
 
@@ -105,7 +107,9 @@ def test_html_escapes_user_text():
     results["checks"][2]["ref"] = "<script>alert(1)</script>"
     text = render_html(results, CONTEXT)
     assert "&lt;script&gt;alert(1)&lt;/script&gt;" in text
-    assert "<script" not in text.lower()  # the template itself has no scripts either
+    # the template's own sort-and-filter script is the only one
+    assert text.lower().count("<script") == 1
+    assert "<script>alert" not in text.lower()
     assert text.lstrip().startswith("<!DOCTYPE html>")
     assert MARKER in text
 
@@ -119,7 +123,7 @@ def test_findings_order():
     results = make_results()
     expected = ["Q4", "Q3", "D1", "C1", "Q5", "Q1", "L1"]
     assert [c["ref"] for c in sort_findings(results["checks"])] == expected
-    findings = _section(render_html(results, CONTEXT), "findings", "matrix")
+    findings = _section(render_html(results, CONTEXT), "findings", "checks")
     assert re.findall(r'<th scope="row">(.*?)</th>', findings) == expected
     assert "Q2" not in findings and "Q6" not in findings
 
@@ -190,33 +194,39 @@ def _load(data: bytes):
 
 
 def test_xlsx_layout():
-    """Sheets, frozen bold header, autofilter over the table, ratio as percent, fills.
+    """Sheets, frozen bold header, autofilter over the table, ratio as percent, status
+    colours as conditional formats on the status text.
 
     Why: reviewers filter and sort the spreadsheet; the header must stay visible.
     """
     results = make_results()
     wb = _load(render_xlsx(results, CONTEXT))
-    assert wb.sheetnames == ["Findings", "Checks", "Corners", "About"]  # findings open first
+    assert wb.sheetnames == ["Summary", "Findings", "Checks", "Matrix", "Corners", "Parts",
+                             "Policy", "Inputs", "Assumptions"]
     checks = wb["Checks"]
-    assert [c.value for c in checks[1]] == list(CHECK_COLUMNS)
+    headers = [c.value for c in checks[1]]
+    assert headers == [h for _, h in BASE_COLUMNS] + ["run id"]
     assert checks["A1"].font.bold
-    for name in ("Checks", "Findings", "Corners"):
+    for name in ("Checks", "Findings", "Corners", "Matrix", "Parts", "Policy", "Inputs"):
         assert wb[name].freeze_panes == "A2"
         assert wb[name].auto_filter.ref
     n = len(results["checks"]) + 1
-    assert checks.auto_filter.ref == f"A1:R{n}"
-    ratio_col = CHECK_COLUMNS.index("ratio") + 1
-    status_col = CHECK_COLUMNS.index("status") + 1
-    assert checks.cell(2, ratio_col).number_format == "0.0%"
+    assert checks.auto_filter.ref == f"A1:T{n}"
+    ratio_col = headers.index("ratio [stress/allowed]") + 1
+    assert checks.cell(2, ratio_col).number_format == "0.00%"
     assert checks.cell(2, ratio_col).value == pytest.approx(0.9375)
-    assert checks.cell(2, status_col).fill.start_color.rgb.endswith("FFE0A3")
+    rules = [r for cf in checks.conditional_formatting for r in cf.rules]
+    fills = {r.formula[0].split('"')[1]: r.dxf.fill.fgColor.rgb for r in rules}
+    assert fills["marginal"].endswith("FFE0A3") and fills["fail"].endswith("F4B4AE")
     findings = wb["Findings"]
     assert [findings.cell(r, 1).value for r in range(2, findings.max_row + 1)] == \
         ["Q4", "Q3", "D1", "C1", "Q5", "Q1", "L1"]
     corners = wb["Corners"]
     assert corners["A1"].value == "id" and corners.max_row == 3
-    about = [c.value for row in wb["About"].iter_rows() for c in row if c.value]
-    assert "ab12" * 16 in about and CAUTIONS[0] in about
+    inputs = [c.value for row in wb["Inputs"].iter_rows() for c in row if c.value]
+    assert "ab12" * 16 in inputs
+    summary = [c.value for row in wb["Summary"].iter_rows() for c in row if c.value]
+    assert CAUTIONS[0] in summary
 
 
 def test_xlsx_formula_like_text_is_stored_as_text():
@@ -326,17 +336,20 @@ def test_write_reports_interrupted_keeps_previous_report(tmp_path, monkeypatch):
     assert _tmp_leftovers(out) == []
 
 
-def test_write_reports_writes_three_files(tmp_path):
-    """results.json round-trips, the folder is created, and a second run may overwrite.
+def test_write_reports_writes_the_set(tmp_path):
+    """results.json round-trips (given a run id), the folder is created, and a second run
+    may overwrite.
 
-    Why: the contract names the three files; rerunning into the same --out is normal.
+    Why: the contract names the files (checks.csv added by the reports issue); rerunning
+    into the same --out is normal.
     """
     out = tmp_path / "a" / "b"
     results = make_results()
     paths = write_reports(results, CONTEXT, out)
-    assert {p.name for p in paths.values()} == {"report.html", "report.xlsx", "results.json"}
+    assert {p.name for p in paths.values()} == {"report.html", "report.xlsx", "results.json",
+                                                 "checks.csv"}
     text = paths["json"].read_text(encoding="utf-8")
-    assert json.loads(text) == results and text.endswith("\n")
+    assert json.loads(text) == stamp_run_id(results) and text.endswith("\n")
     results["design"] = "second run"
     write_reports(results, CONTEXT, out)
     assert json.loads(paths["json"].read_text())["design"] == "second run"

@@ -13,10 +13,13 @@ import jinja2
 
 from ..schema import KIND_QUANTITIES, QUANTITIES
 from ..texts import CAUTIONS
+from . import html_blocks
+from .annotations import annotations, spikes_left_out
 from .view import (DASH, FINDING_STATUSES, OTHER_COLOUR, ROLE_ORDER, STATUS_COLOURS,
                    STATUS_ORDER, _ratio_key, _status_rank, corner_columns, count_statuses,
                    format_number, format_ratio, format_value, governing_corner_ids,
-                   sort_findings, status_class, tool_version, unit_label)
+                   policy_label, revision, sort_findings, status_class, tool_version,
+                   unit_label)
 
 TEMPLATE_NAME = "report.html.j2"
 MARKER = "<!-- stresscheck report -->"  # emitted by the template; see writer.py
@@ -33,7 +36,7 @@ def _quantity_desc(quantity) -> str:
     return q.description if q else ""
 
 
-def _check_view(check: dict) -> dict:
+def _check_view(check: dict, results: dict | None = None, spikes: bool = False) -> dict:
     unit = check.get("unit")
     quantity = check.get("quantity")
     rating = check.get("rating")
@@ -67,7 +70,18 @@ def _check_view(check: dict) -> dict:
         "corner_link": bool(corner),
         "basis": check.get("basis") or "",
         "note": check.get("note") or "",
+        "notes": annotations(check, results or {}, spikes),
+        "role": _text(check.get("role")),
+        "ratio_num": _ratio_attr(check.get("ratio")),
     }
+
+
+def _ratio_attr(ratio) -> str:
+    """The ratio for the sort script's data attribute ("" when there is none)."""
+    if isinstance(ratio, (int, float)) and not isinstance(ratio, bool) and ratio == ratio \
+            and abs(ratio) != float("inf"):
+        return repr(float(ratio))
+    return ""
 
 
 def _role_rank(role) -> tuple:
@@ -77,7 +91,7 @@ def _role_rank(role) -> tuple:
         return (len(ROLE_ORDER), str(role))
 
 
-def _matrix(checks) -> list[dict]:
+def _matrix(checks, results: dict, spikes: bool) -> list[dict]:
     """One table per (role, kind): rows are refs, column groups the kind's quantities."""
     groups: dict[tuple, dict] = {}
     for check in checks or ():
@@ -106,7 +120,7 @@ def _matrix(checks) -> list[dict]:
                 # Several rows (stress kinds) for one quantity: show the worst.
                 worst = sorted(found, key=lambda c: (_status_rank(c.get("status")),
                                                      _ratio_key(c)))[0]
-                cell = _check_view(worst)
+                cell = _check_view(worst, results, spikes)
                 cell["count"] = len(found)
                 cell["kinds"] = ", ".join(_text(c.get("stress_kind")) for c in found)
                 cells.append(cell)
@@ -231,6 +245,7 @@ def build_view(results: dict, context: dict) -> dict:
     checks = results.get("checks") or []
     counts = count_statuses(results)
     statuses = list(STATUS_ORDER) + [s for s in counts if s not in STATUS_ORDER]
+    statuses = [s for s in statuses if s in STATUS_ORDER or counts.get(s)]
     header = [("Topology", _text(converter.get("topology"))),
               ("Rectifier", _text(converter.get("rectifier"))),
               ("Modulation", _text(converter.get("modulation"))),
@@ -238,8 +253,10 @@ def build_view(results: dict, context: dict) -> dict:
               ("Tool", f"{(results.get('tool') or {}).get('name') or 'stresscheck'} "
                        f"{tool_version(results, context)}"),
               ("Date", _text(context.get("date")))]
-    if context.get("revision"):
-        header.insert(0, ("Design revision", str(context["revision"])))
+    if revision(results, context):
+        header.insert(0, ("Design revision", revision(results, context)))
+    if results.get("run_id"):
+        header.append(("Run id", str(results["run_id"])))
     header = [(k, v) for k, v in header
               if not (k in ("Rectifier", "Modulation") and v == DASH)]
     gov_ids = governing_corner_ids(results)
@@ -250,7 +267,8 @@ def build_view(results: dict, context: dict) -> dict:
                           "text": _text(note.get("text"))})
         else:
             notes.append({"level": "note", "text": _text(note)})
-    return {
+    spikes = spikes_left_out(results)
+    view = {
         "design": _text(results.get("design")),
         "schema": _text(results.get("schema")),
         "header": header,
@@ -261,9 +279,11 @@ def build_view(results: dict, context: dict) -> dict:
                     for s in statuses],
         "total": len(checks),
         "verdict": _verdict(counts),
-        "findings": [_check_view(c) for c in sort_findings(checks)],
-        "findings_have_notes": any(c.get("note") for c in sort_findings(checks)),
-        "matrix": _matrix(checks),
+        "findings": [_check_view(c, results, spikes) for c in sort_findings(checks)],
+        "findings_have_notes": True,
+        "matrix": _matrix(checks, results, spikes),
+        "all_checks": [_check_view(c, results, spikes) for c in checks],
+        "rule_link_by_id": {},
         "governing": _corner_table(results, gov_ids),
         "corners": _corner_table(results),
         "losses": [str(x) for x in results.get("losses_included") or ()],
@@ -273,6 +293,13 @@ def build_view(results: dict, context: dict) -> dict:
         "uncovered": [str(x) for x in results.get("uncovered_quantities") or ()],
         "colours": {**STATUS_COLOURS, "other": OTHER_COLOUR},
     }
+    view.update(html_blocks.blocks(results, context))
+    rules = results.get("policy_rules") or ()
+    view["rule_link_by_id"] = {str(r.get("id")): link for r, link in
+                               zip(rules, view["rule_links"]) if r.get("id")}
+    view["annotated"] = [c for c in view["all_checks"]
+                         if any(a["cls"] != "excl" for a in c["notes"])]
+    return view
 
 
 # --------------------------------------------------------------------------- rendering
