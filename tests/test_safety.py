@@ -32,7 +32,7 @@ from test_input_errors import (assert_input_error, commercial_policy, rich_desig
                                rich_parts, run_cli, write_inputs)
 
 DATE = "2026-03-14"
-REPORTS = ("report.html", "report.xlsx", "results.json")
+REPORTS = ("report.html", "report.xlsx", "results.json", "checks.csv")
 
 
 def digest(path: Path) -> str:
@@ -173,13 +173,14 @@ class _FixedDate:
             return _dt.date.fromisoformat(DATE)
 
 
-@pytest.mark.parametrize("fail_at", [1, 2, 3])
+@pytest.mark.parametrize("fail_at", [1, 2, 3, 4])
 @pytest.mark.parametrize("error", ["interrupt", "disk-full"])
 def test_interrupted_write_loses_nothing(tmp_path, monkeypatch, fail_at, error):
-    """A run interrupted while its reports are written (Ctrl-C or a full disk at the
-    n-th of the three files) leaves every report complete, each either the earlier or
-    the new version, no temporary files, and the inputs unchanged. Ctrl-C exits 130, a
-    full disk 2 with a message naming the file.
+    """A run interrupted while its reports are written (Ctrl-C at the n-th rename, or a
+    full disk at the n-th file written) leaves every report complete, each either the
+    earlier or the new version, no temporary files, and the inputs unchanged. Every file
+    is written to disk before the first rename, so a full disk leaves the earlier set
+    whole. Ctrl-C exits 130, a full disk 2 with a message naming the file.
 
     Source: the robustness issue (items 3 and 6); an atomic rename within one file
     system (common practice for safe file replacement).
@@ -233,7 +234,10 @@ def test_interrupted_write_loses_nothing(tmp_path, monkeypatch, fail_at, error):
     written = [name for name in REPORTS if now[name] == new[name]]
     kept = [name for name in REPORTS if now[name] == old[name]]
     assert sorted(written + kept) == sorted(REPORTS)
-    assert len(written) == fail_at - 1  # the files before the failing one are new
+    if error == "interrupt":
+        assert len(written) == fail_at - 1  # the files renamed before the failing one
+    else:
+        assert written == []  # nothing is renamed before every file is on disk
     assert {p: digest(p) for p in inputs.all_files()} == before
 
 

@@ -26,9 +26,12 @@ _RC = {"svg.hashsalt": "stresscheck", "svg.fonttype": "none", "text.parse_math":
 _SVG_OPEN = re.compile(r"<svg\b[^>]*>", re.S)
 
 
-def _figure(width: float, height: float):
+def _figure(width: float, height: float, **margins):
+    """A figure with fixed margins (a layout engine would cost a drawing pass or more)."""
     from matplotlib.figure import Figure
-    return Figure(figsize=(width, height), layout="constrained")
+    fig = Figure(figsize=(width, height), layout=None)
+    fig.subplots_adjust(**margins)
+    return fig
 
 
 def _svg(fig, label: str) -> str:
@@ -74,7 +77,9 @@ def ratio_bars(results: dict) -> str | None:
                                                    str(ic[1].get("role")), ic[0]))
     rows = [c for _, c in rows]
     with matplotlib.rc_context(_RC):
-        fig = _figure(max(6.0, min(16.0, 1.5 + 0.13 * len(rows))), 3.4)
+        width = max(6.0, min(16.0, 1.5 + 0.13 * len(rows)))
+        fig = _figure(width, 3.6, left=0.55 / width, right=1 - 0.1 / width, top=0.97,
+                      bottom=0.33)
         ax = fig.add_subplot()
         x = list(range(len(rows)))
         ratios = [100.0 * c["ratio"] for c in rows]
@@ -145,7 +150,9 @@ def sweep_chart(group: dict, results: dict) -> str:
     sweeps = group["sweeps"]
     ref = group["refs"][0]
     with matplotlib.rc_context(_RC):
-        fig = _figure(min(3.0 * len(sweeps), 13.0), 2.5)
+        width = min(3.0 * len(sweeps), 14.0)
+        fig = _figure(width, 2.6, left=0.55 / width, right=1 - 0.1 / width, top=0.88,
+                      bottom=0.18, wspace=0.45)
         axes = fig.subplots(1, len(sweeps), squeeze=False)[0]
         for ax, s in zip(axes, sweeps):
             check = checks.get((ref, s.get("quantity"))) or {}
@@ -209,7 +216,7 @@ def monte_carlo_chart(check: dict) -> str | None:
         return None
     label = display_value(0.0, unit, q)[1]
     with matplotlib.rc_context(_RC):
-        fig = _figure(4.2, 2.2)
+        fig = _figure(4.2, 2.3, left=0.14, right=0.97, top=0.88, bottom=0.2)
         ax = fig.add_subplot()
         if hist and hist.get("edges") and hist.get("counts"):
             edges = [shown(e) for e in hist["edges"]]
@@ -224,8 +231,8 @@ def monte_carlo_chart(check: dict) -> str | None:
                     fontsize=6.5, va="top")
         if allowed is not None:
             ax.axvline(allowed, color=LIMIT_COLOUR, linestyle="--", linewidth=1.2)
-            ax.text(allowed, 0.02, " allowed", transform=ax.get_xaxis_transform(),
-                    color=LIMIT_COLOUR, fontsize=6.5)
+            ax.text(allowed, 0.02, "allowed ", transform=ax.get_xaxis_transform(),
+                    color=LIMIT_COLOUR, fontsize=6.5, ha="right")
         ax.set_xlabel(f"{q} [{label}]" if label else str(q))
         n = mc.get("samples")
         ax.set_title(f"{check.get('ref')} {q}" + (f", {n} samples" if n else ""))
