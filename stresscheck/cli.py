@@ -201,7 +201,8 @@ def _refuse_inputs_as_output(out_dir: Path, design, policy):
         if _same_file(out_dir, path):
             raise InputError(out_dir, None, f"the output folder is an input file "
                              f"({path}); choose another --out")
-    for name in ("report.html", "report.xlsx", "results.json"):
+    from .report.writer import FILES
+    for name in FILES.values():
         target = out_dir / name
         for path in inputs:
             if _same_file(target, path):
