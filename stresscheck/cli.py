@@ -57,6 +57,9 @@ def _parser() -> argparse.ArgumentParser:
     v.add_argument("--policy", default="commercial", metavar="NAME_OR_FILE")
     v.add_argument("--keep", type=Path, default=None, metavar="DIR",
                    help="keep the netlists and simulated results in DIR")
+    v.add_argument("--into", type=Path, default=None, metavar="DIR",
+                   help="add the simulated values to the report set in DIR (written by "
+                        "'check' from the same design and policy)")
     f = sub.add_parser("diff", help="compare two results.json files check by check")
     f.add_argument("old", type=Path)
     f.add_argument("new", type=Path)
@@ -457,7 +460,8 @@ def cmd_demo(args) -> int:
 
 def cmd_verify(args) -> int:
     from .verify import verify_design
-    return verify_design(args.design, args.parts, args.policy, keep=args.keep)
+    return verify_design(args.design, args.parts, args.policy, keep=args.keep,
+                         into=args.into)
 
 
 def describe(exc: InputError) -> str:

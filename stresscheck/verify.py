@@ -85,7 +85,8 @@ def governing_corners(evaluation, checks) -> list[int]:
     return wanted
 
 
-def verify_design(design_path, parts, policy_name, *, keep: Path | None = None) -> int:
+def verify_design(design_path, parts, policy_name, *, keep: Path | None = None,
+                  into: Path | None = None) -> int:
     from .checks import run_checks
     from .design import load_design
     from .engine import run
@@ -103,11 +104,14 @@ def verify_design(design_path, parts, policy_name, *, keep: Path | None = None) 
     refused = deck_for(design.topology).refused
     if refused:
         raise SimulationError(f"{design.path}: {refused}")
+    policy = load_policy(policy_name)
+    report_set = _open_report_set(into, design, policy) if into is not None else None
     evaluation = run(design)
-    checks = run_checks(evaluation, load_policy(policy_name))
+    checks = run_checks(evaluation, policy)
     corners = governing_corners(evaluation, checks)
     print(f"{design.name}: simulating {len(corners)} governing corner(s) in ngspice")
     failures = 0
+    compared: list[Comparison] = []
     for i in corners:
         cid = evaluation.corners.ids[i]
         print(f"\ncorner {evaluation.corners.describe(i)}")
@@ -119,10 +123,65 @@ def verify_design(design_path, parts, policy_name, *, keep: Path | None = None) 
         print(f"  {'ref':6s} {'quantity':15s} {'computed':>12s} {'simulated':>12s} "
               f"{'diff':>8s} {'tol':>5s}")
         for cmp in compare_at(evaluation, i, sim):
+            compared.append(cmp)
             flag = "ok" if cmp.ok else "OUTSIDE"
             failures += not cmp.ok
             print(f"  {cmp.ref:6s} {cmp.quantity:15s} {cmp.computed:12.5g} "
                   f"{cmp.simulated:12.5g} {100 * cmp.rel:+7.2f}% {100 * cmp.tolerance:4.0f}%"
                   f"  {flag}")
     print(f"\n{failures} comparison(s) outside tolerance")
+    if report_set is not None:
+        marked = _write_simulated(into, report_set, compared)
+        print(f"{marked} row(s) of the reports in {into} now carry their simulated value")
     return 1 if failures else 0
+
+
+def _open_report_set(into: Path, design, policy) -> dict:
+    """The results of a complete report set made from this design file and policy."""
+    import json
+
+    from .errors import InputError
+    from .report.writer import check_set
+    from .results import file_sha256
+
+    into = Path(into)
+    if not into.is_dir():
+        raise InputError(into, None, "--into expects the folder of an existing report set "
+                         "(written by 'stresscheck check')")
+    check_set(into)
+    results = json.loads((into / "results.json").read_text(encoding="utf-8"))
+    hashes = {i.get("role"): i.get("sha256") for i in results.get("inputs") or ()}
+    if hashes.get("design") != file_sha256(design.path):
+        raise InputError(into, None, f"the reports here were made from another design "
+                         f"file than {design.path.name} (its SHA-256 differs); run "
+                         "'stresscheck check' first")
+    if hashes.get("policy") != policy.sha256:
+        raise InputError(into, None, f"the reports here were made under another policy "
+                         f"than '{policy.name}'; give the --policy they were made with")
+    return results
+
+
+def _write_simulated(into: Path, results: dict, compared: list[Comparison]) -> int:
+    """Add ``simulated = {value, difference, tolerance}`` to the rows whose governing
+    corner was simulated, mark them ``basis = "simulated"`` (``stress`` stays the
+    computed value) and write the whole set again with a new run id."""
+    import datetime as _dt
+
+    from . import __version__
+    from .report.writer import write_reports
+    from .runid import stamp_run_id
+
+    found = {(c.ref, c.quantity, c.corner): c for c in compared}
+    marked = 0
+    for check in results.get("checks") or ():
+        cmp = found.get((check.get("ref"), check.get("quantity"), check.get("corner")))
+        if cmp is None:
+            continue
+        check["simulated"] = {"value": cmp.simulated, "difference": cmp.rel,
+                              "tolerance": cmp.tolerance}
+        check["basis"] = "simulated"
+        marked += 1
+    results.pop("run_id", None)
+    context = {"date": _dt.date.today().isoformat(), "tool_version": __version__}
+    write_reports(stamp_run_id(results), context, Path(into))
+    return marked
