@@ -105,6 +105,7 @@ def run_check(design_path: Path, parts, policy_name, out_dir: Path, *, date=None
     from .policy import load_policy
     from .report.writer import check_output, write_reports
     from .results import build_results
+    from .runid import stamp_run_id
     from .sensitivity import annotate
 
     if samples is not None and samples < 1:
@@ -140,6 +141,7 @@ def run_check(design_path: Path, parts, policy_name, out_dir: Path, *, date=None
         results["sampling"] = sampling.as_dict()
     if bom_record is not None:
         results.update(bom_record)
+    results = stamp_run_id(results)  # the run id covers every field added above
     _refuse_non_finite(results, design)
     context = {"date": today.isoformat(), "tool_version": __version__}
     paths = write_reports(results, context, out_dir)

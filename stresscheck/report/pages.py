@@ -11,7 +11,7 @@ from pathlib import Path
 
 from ..errors import InputError
 from ..fsio import write_atomic
-from .cautions import CAUTIONS
+from ..texts import CAUTIONS
 from .html import MARKER, _environment
 
 

@@ -19,7 +19,7 @@ from pathlib import Path
 
 from ..errors import InputError
 from ..fsio import commit_atomic, discard, stage_atomic
-from ..runid import stamp_run_id
+from ..runid import run_id_of, stamp_run_id
 from .html import MARKER, render_html
 from .table import render_csv
 from .xlsx import RUN_ID_PROPERTY, render_xlsx
@@ -139,7 +139,8 @@ def write_reports(results: dict, context: dict, out_dir: Path) -> dict[str, Path
     ----------
     results
         The results dict from the engine (schema "stresscheck.results/1"); must hold no
-        NaN (None stands for not computed). Given without ``run_id``, it gets one.
+        NaN (None stands for not computed). Given without ``run_id``, or with one that
+        no longer matches its content, it gets its run id (`stresscheck.runid`).
     context
         Run information passed to the renderers (``date``, ``tool_version``, optional
         ``revision``).
@@ -160,7 +161,7 @@ def write_reports(results: dict, context: dict, out_dir: Path) -> dict[str, Path
     """
     out_dir = Path(out_dir)
     targets = _check_targets(out_dir)
-    if not results.get("run_id"):
+    if results.get("run_id") != run_id_of(results):  # absent, or fields added since
         results = stamp_run_id(results)
     # Render everything first: a rendering error must leave the folder as it was.
     payload = {
