@@ -241,3 +241,19 @@ def test_fields_added_elsewhere_are_rendered_when_present():
                    "Conduction regimes", "conduction 1.25 W", "1 waived",
                    "Monte Carlo distributions"):
         assert phrase in text, phrase
+
+
+def test_part_sheet_paths_and_shadowed_sheets_are_shown():
+    """Where results name the sheet used and the sheets it shadowed (the part-sheet
+    shadowing item of the robustness issue), both reports show them."""
+    import io
+    results = make_results()
+    results["inputs"].insert(1, {"role": "part", "name": "nfet-100v-12m", "sha256": "ef" * 32,
+                                 "path": "parts/nfet-100v-12m.toml",
+                                 "shadowed": ["(shipped library)/nfet-100v-12m.toml"]})
+    text = _visible(render_html(results, CONTEXT))
+    assert "parts/nfet-100v-12m.toml" in text
+    assert "shadows (shipped library)/nfet-100v-12m.toml" in text
+    from stresscheck.report.xlsx import render_xlsx
+    frame = pd.read_excel(io.BytesIO(render_xlsx(results, CONTEXT)), sheet_name="Inputs")
+    assert "(shipped library)/nfet-100v-12m.toml" in set(frame["shadowed"].dropna())

@@ -273,7 +273,9 @@ def build_view(results: dict, context: dict) -> dict:
         "schema": _text(results.get("schema")),
         "header": header,
         "inputs": [{"role": _text(i.get("role")), "name": _text(i.get("name")),
-                    "sha256": _text(i.get("sha256"))} for i in results.get("inputs") or ()],
+                    "sha256": _text(i.get("sha256")), "path": i.get("path") or "",
+                    "shadowed": [str(s) for s in i.get("shadowed") or ()]}
+                   for i in results.get("inputs") or ()],
         "cautions": CAUTIONS,
         "summary": [{"status": s, "cls": status_class(s), "count": counts.get(s, 0)}
                     for s in statuses],

@@ -285,12 +285,15 @@ def policy_sheet(ws, results: dict, page: dict) -> None:
 
 
 def inputs_sheet(ws, results: dict, page: dict) -> None:
-    keys = ("role", "name", "sha256", "path")
+    keys = ("role", "name", "sha256", "path", "shadowed")
     inputs = results.get("inputs") or ()
     header(ws, list(keys))
     for r, item in enumerate(inputs, start=2):
         for col, key in enumerate(keys, start=1):
-            put(ws, r, col, item.get(key))
+            value = item.get(key)
+            if isinstance(value, (list, tuple)):
+                value = ", ".join(str(v) for v in value)
+            put(ws, r, col, value)
     finish(ws, len(keys), len(inputs) + 1, max_width=70, page=page)
 
 
