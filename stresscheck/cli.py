@@ -353,9 +353,26 @@ def cmd_check(args) -> int:
         print(line)
     _print_shadowed(results)
     _print_findings(results)
+    _print_waived(results)
     print(f"reports (run {results.get('run_id')}): {paths['html']}, {paths['xlsx']}, "
           f"{paths['json']}, {paths['csv']}")
-    return exit_status(checks)
+    return exit_status(checks, args.fail_on)
+
+
+def cmd_policies(args) -> int:
+    from .policy import builtin_names, load_policy
+    for name in builtin_names():
+        p = load_policy(name)
+        memory = " [some rules from memory]" if p.from_memory else ""
+        print(f"{name}\t{p.title}\t{p.source}{memory}")
+    return 0
+
+
+def cmd_policy(args) -> int:
+    from .policy import load_policy
+    from .policy_show import show_policy
+    print(show_policy(load_policy(args.name)))
+    return 0
 
 
 def _print_substitutions(results) -> None:

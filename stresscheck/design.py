@@ -58,6 +58,7 @@ class Design:
     line_frequency: Spread | None = None  # [Hz], input = "ac" only
     hold_up_time: float | None = None  # [s]
     hold_up_voltage: float | None = None  # [V] lowest bus voltage the load accepts
+    waivers: list = field(default_factory=list)  # waivers.Waiver, see waivers.py
     review: dict = field(default_factory=dict)  # [review] sign-off block (review.py)
 
     def by_role(self, role: str) -> list[Component]:
@@ -101,8 +102,8 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
             raise InputError(folder, None, "--parts expects a folder of part sheets, but "
                              "this is a file")
     doc = read_toml(path, "design file")
-    check_keys(doc, ("schema", "converter", "operating", "components", "bom", "review"),
-               path)
+    check_keys(doc, ("schema", "converter", "operating", "components", "bom", "waivers",
+                     "review"), path)
     version = require_str(doc, "schema", path)
     if version != schema.DESIGN_SCHEMA:
         raise InputError(path, "schema", f"unknown schema version {shorten(version)}; "
@@ -177,6 +178,7 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
     _load_line(design, op, spread, scalar)
     library = PartLibrary(part_folders(path, parts_dirs))
     design.components = _load_components(doc, path, library)
+    design.waivers = read_waivers(doc, path, design.components)
     design.review = load_review(doc, path)
     check_envelope(design)  # what the topology cannot produce, before its options
     layout = layout_for(design)  # raises on unsupported combinations

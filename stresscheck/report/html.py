@@ -199,16 +199,6 @@ def _rule_view(rule: dict) -> dict:
             "source": _text(rule.get("source"))}
 
 
-def policy_label(results: dict) -> str:
-    """The policy name, with "rules from memory" and what it leaves uncovered."""
-    details, text = results.get("policy_details") or {}, _text(results.get("policy"))
-    extra = ["some rules from memory"] if details.get("from_memory") else []
-    uncovered = results.get("uncovered_quantities") or []
-    if uncovered:
-        extra.append("leaves uncovered: " + ", ".join(str(u) for u in uncovered))
-    return f"{text} ({'; '.join(extra)})" if extra else text
-
-
 def _verdict(counts: dict) -> dict:
     bad = counts.get("fail", 0) + counts.get("unrated", 0)
     if bad:

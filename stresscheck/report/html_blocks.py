@@ -49,7 +49,7 @@ def _policy_details(results: dict) -> dict | None:
         return None
     kinds = details.get("uncovered_kinds") or ()
     return {"name": _text(details.get("name")), "title": details.get("title") or "",
-            "version": details.get("version") or "", "source": details.get("source") or "",
+            "version": details.get("version") or "", "source": sources.name_notes(str(details.get("source") or "")),
             "from_memory": bool(details.get("from_memory")),
             "uncovered_kinds": [str(k) for k in kinds]}
 

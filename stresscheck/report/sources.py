@@ -62,6 +62,13 @@ def citations(source: str) -> list[tuple[str, int]]:
     return found
 
 
+def name_notes(text: str) -> str:
+    """``docs/<note>.md`` in a text (no section cited) named as the shipped notes."""
+    return re.sub(r"docs/([A-Za-z0-9_-]+)\.md",
+                  lambda m: f"the {m.group(1).replace('-', ' ')} notes (cited sections "
+                            "under Rule sources)", text or "")
+
+
 def anchor(note: str, number: int) -> str:
     return f"src-{note}-{number}"
 

@@ -10,7 +10,7 @@ import math
 
 # Display order of statuses; the first four are "findings".
 STATUS_ORDER = ("fail", "not-computed", "unrated", "marginal", "pass", "info")
-FINDING_STATUSES = ("fail", "not-computed", "unrated", "marginal")
+FINDING_STATUSES = ("fail", "not-computed", "unrated", "marginal", "waived")
 
 # One palette for HTML and spreadsheet (RRGGBB): three-state green/amber/red, grey where
 # there is no verdict, blue-grey for information only.
@@ -258,7 +258,8 @@ def signoff(results: dict) -> list[dict]:
 
 
 def policy_label(results: dict) -> str:
-    """Policy name with its title and version where results carry ``policy_details``."""
+    """Policy name with its title and version where results carry ``policy_details``,
+    whether some rules are from memory, and the quantities it leaves uncovered."""
     details = results.get("policy_details") or {}
     name = str(results.get("policy") or details.get("name") or DASH)
     extra = []
@@ -266,7 +267,12 @@ def policy_label(results: dict) -> str:
         extra.append(str(details["title"]))
     if details.get("version") not in (None, ""):
         extra.append(f"version {details['version']}")
-    return f"{name} ({', '.join(extra)})" if extra else name
+    if details.get("from_memory"):
+        extra.append("some rules from memory")
+    uncovered = results.get("uncovered_quantities") or []
+    if uncovered:
+        extra.append("leaves uncovered: " + ", ".join(str(u) for u in uncovered))
+    return f"{name} ({'; '.join(extra)})" if extra else name
 
 
 def eng_scale(values, unit: str | None) -> tuple[float, str]:
