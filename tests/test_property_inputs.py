@@ -577,7 +577,9 @@ def policy_rule_mutations(doc):
         ratings = schema.PART_KEYS[kind]["ratings"]
         sub.append(invalid_choice(ratings).map(m("rating", "invalid rating")))
         # factor or margin stay behind: reported at the rule's factor or margin
-        sub.append(st.just(DELETE).map(m("rating", "delete rating", expect=key + ".")))
+        if "rating" in rule:  # a fixed-limit rule (the hold-up one) has no rating
+            sub.append(st.just(DELETE).map(m("rating", "delete rating",
+                                             expect=key + ".")))
         if "factor" in rule:
             sub.append(st.sampled_from(["0.8", True, [0.8], 0, -0.5, math.nan, math.inf,
                                         1.6, 10, 1e300]).map(m("factor", "bad factor")))
