@@ -141,8 +141,8 @@ def run_check(design_path: Path, parts, policy_name, out_dir: Path, *, date=None
         results["sampling"] = sampling.as_dict()
     if bom_record is not None:
         results.update(bom_record)
+    _refuse_non_finite(results, design)  # before the id: it hashes strict JSON
     results = stamp_run_id(results)  # the run id covers every field added above
-    _refuse_non_finite(results, design)
     context = {"date": today.isoformat(), "tool_version": __version__}
     paths = write_reports(results, context, out_dir)
     return results, paths, checks
