@@ -46,6 +46,7 @@ class Check:
     monte_carlo: dict | None = None
     rss: dict | None = None
     sensitivity: list | None = None
+    measured: dict | None = None  # {value, instrument, probe_point, date, mode}
 
     def as_dict(self) -> dict:
         out = {k: getattr(self, k) for k in (
@@ -57,6 +58,8 @@ class Check:
             out["waived_status"] = self.waived_status
         out.update({k: getattr(self, k) for k in ("monte_carlo", "rss", "sensitivity")
                     if getattr(self, k) is not None})
+        if self.measured is not None:
+            out["measured"] = self.measured
         return out
 
 
@@ -135,6 +138,12 @@ def check_stress(stress, policy, corners, temperatures=None) -> Check:
         take = mask & (np.isnan(allowed) | (a < allowed))
         allowed = np.where(take, a, allowed)
         governing = np.where(take, j, governing)
+    # a rating that depends on the corner's temperature (ratings.py): scaled per corner
+    scales = getattr(stress, "rating_scale", None) or {}
+    for j, r in enumerate(rules):
+        if r.rating_key in scales:
+            sel = governing == j
+            allowed = np.where(sel, allowed * scales[r.rating_key][idx], allowed)
     covered = ~np.isnan(allowed)
     if not covered.any():
         return empty("info", "no rule for these stress kinds", None,
@@ -146,7 +155,7 @@ def check_stress(stress, policy, corners, temperatures=None) -> Check:
     rule = rules[int(governing[g])]
     r_val = ratio[g]
     status = status_of(r_val, policy)
-    notes = []
+    notes = [stress.note] if getattr(stress, "note", "") else []  # e.g. a leakage spike
     if not np.isfinite(r_val):
         notes.append("allowed value is zero or negative")
         if rule.curve is not None:
@@ -156,6 +165,11 @@ def check_stress(stress, policy, corners, temperatures=None) -> Check:
     if why:
         notes.append(why)
     rating = part.ratings.get(rule.rating_key) if rule.rating_key else None
+    if rule.rating_key in scales and rating is not None:
+        rating = rating * scales[rule.rating_key][idx[g]]
+        t_rating = stress.rating_temperature[idx[g]]
+        notes.append(f"{rule.rating_key} at {t_rating:.4g} °C: {rating:.4g} (the sheet's "
+                     "rating at the corner)")
     return Check(**base, stress=_f(values[g]), corner=corners.ids[idx[g]],
                  rating=_f(rating) if rating is not None else None,
                  rating_key=rule.rating_key,
@@ -218,9 +232,13 @@ def run_checks(evaluation, policy) -> list[Check]:
     ambient = (corners["ambient_temperature"] if "ambient_temperature" in corners.columns
                else None)
     device = device_temperatures(evaluation.stresses)
-    return [_check_converged(s, policy, corners, runaway,
-                             {"ambient": ambient, "device": device.get(s.ref)})
-            for s in evaluation.stresses]
+    checks = [_check_converged(s, policy, corners, runaway,
+                               {"ambient": ambient, "device": device.get(s.ref)})
+              for s in evaluation.stresses]
+    for c, s in zip(checks, evaluation.stresses):
+        if getattr(s, "basis", "computed") != "computed":  # e.g. a [[measured]] value
+            c.basis, c.measured = s.basis, s.measured
+    return checks
 
 
 def runaway_by_ref(evaluation) -> dict[str, np.ndarray]:

@@ -14,6 +14,8 @@ from . import schema
 from .errors import InputError
 from .parts import Part, PartLibrary, shipped_library
 from .review import load_review
+from .measured import load_measured
+from .spikes import Clamp, check_spike_options, load_clamp, load_overshoot
 from .tomlio import (check_keys, optional_text, read_toml, require_str, require_table,
                      shorten, type_name)
 from .topologies import check_envelope, layout_for
@@ -60,6 +62,9 @@ class Design:
     hold_up_voltage: float | None = None  # [V] lowest bus voltage the load accepts
     waivers: list = field(default_factory=list)  # waivers.Waiver, see waivers.py
     review: dict = field(default_factory=dict)  # [review] sign-off block (review.py)
+    clamp: Clamp | None = None  # [converter] clamp: RCD or voltage clamp of the switches
+    overshoot: dict[str, float] = field(default_factory=dict)  # "switch"/"rectifier" -> [1]
+    measured: list = field(default_factory=list)  # [[measured]] (measured.Measurement)
 
     def by_role(self, role: str) -> list[Component]:
         return [c for c in self.components if c.role == role]
@@ -70,7 +75,7 @@ class Design:
 
 
 CONVERTER_KEYS = ("name", "topology", "rectifier", "modulation", "switching_frequency",
-                  "dead_time", "max_duty")
+                  "dead_time", "max_duty", "clamp", "overshoot")
 OPERATING_KEYS = ("input", "input_voltage", "input_surge", "output_voltage", "output_current",
                   "current_limit", "ambient_temperature", "line_frequency", "hold_up_time",
                   "hold_up_voltage")
@@ -103,7 +108,7 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
                              "this is a file")
     doc = read_toml(path, "design file")
     check_keys(doc, ("schema", "converter", "operating", "components", "bom", "waivers",
-                     "review"), path)
+                     "review", "measured"), path)
     version = require_str(doc, "schema", path)
     if version != schema.DESIGN_SCHEMA:
         raise InputError(path, "schema", f"unknown schema version {shorten(version)}; "
@@ -176,13 +181,17 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
     design = Design(path, name, topology, rectifier, modulation, fsw, dead_time, max_duty,
                     vin, surge, vo, io, ilim, ta)
     _load_line(design, op, spread, scalar)
+    design.clamp = load_clamp(conv, path)
+    design.overshoot = load_overshoot(conv, path)
     library = PartLibrary(part_folders(path, parts_dirs))
     design.components = _load_components(doc, path, library)
     design.waivers = read_waivers(doc, path, design.components)
     design.review = load_review(doc, path)
+    design.measured = load_measured(doc, path, design.components)
     check_envelope(design)  # what the topology cannot produce, before its options
     layout = layout_for(design)  # raises on unsupported combinations
     layout.validate(design)
+    check_spike_options(design)
     return design
 
 

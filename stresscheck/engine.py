@@ -15,7 +15,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import schema
+from . import measured, ratings, schema, spikes
 from .corners import CornerSet, build_corners
 from .devices import DeviceModel, StageParts, Temperature, build_devices
 from .errors import RegulationError
@@ -61,13 +61,20 @@ def run(design, corners: CornerSet | None = None) -> Evaluation:
                                             *runaway.values()]))
     notes.extend({"level": "assumption", "text": text} for text in result.notes)
     stresses, losses, p_loss = derive(devices, corners, result, t, runaway)
+    if result.clamp_loss is not None:  # a clamp the converter model feeds back
+        p_loss = p_loss + result.clamp_loss
     if any(r.any() for r in runaway.values()):
         notes.append({"level": "warning", "text": "thermal runaway: the electro-thermal "
                       "loop (R_DS(on) rising with T_j) does not converge at some corners"})
     p_in = corners["input_voltage"] * result.input_current
     p_out = corners["output_voltage"] * corners["output_current"]
+    spike_notes, clamps = spikes.apply(design, corners, stage, result, stresses, devices,
+                                       p_in)
+    notes.extend({"level": "assumption", "text": text} for text in spike_notes)
+    ratings.apply(stresses, corners, notes)
+    measured.apply(getattr(design, "measured", ()), stresses)
     return Evaluation(design, corners, result, stage, stresses, {k: t[k] for k in runaway},
-                      runaway, p_in, p_out, p_loss, notes, losses)
+                      runaway, p_in, p_out, p_loss, notes, losses, clamps)
 
 
 def build_stage(design, corners: CornerSet, devices: list[DeviceModel],
@@ -102,7 +109,8 @@ def build_stage(design, corners: CornerSet, devices: list[DeviceModel],
                  capacitors=parts.capacitors,
                  line_frequency=corners.columns.get("line_frequency"),
                  hold_up=(None if design.hold_up_time is None
-                          else (design.hold_up_time, design.hold_up_voltage)))
+                          else (design.hold_up_time, design.hold_up_voltage)),
+                 handover=spikes.handover(design))
 
 
 def solve_temperatures(design, corners: CornerSet, devices: list[DeviceModel]):

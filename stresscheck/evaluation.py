@@ -25,6 +25,14 @@ class Stress:
     values: np.ndarray  # (N,) [SI], NaN where not computed
     applicable: np.ndarray  # (N,) bool: corners that count for this quantity
     reason: str = ""  # why not computed, if so
+    note: str = ""  # what the value includes (e.g. a leakage spike: spikes.apply)
+    spike: str = ""  # "clamp" or "allowance" where the value includes a leakage spike
+    # rating key -> (N,) scale of the sheet's rating at each corner's temperature, and
+    # that temperature [degC] (ratings.apply)
+    rating_scale: dict | None = None
+    basis: str = "computed"  # "measured" where a [[measured]] entry applies
+    measured: dict | None = None  # {value, instrument, probe_point, date, mode}
+    rating_temperature: np.ndarray | None = None
 
 
 @dataclass
@@ -46,3 +54,5 @@ class Evaluation:
     notes: list[dict] = field(default_factory=list)
     # loss terms of one device of each ref: ref -> term -> (N,) [W]
     losses: dict[str, dict[str, np.ndarray]] = field(default_factory=dict)
+    # worst figures of each modelled leakage clamp (spikes.apply), for results.json
+    clamps: list[dict] = field(default_factory=list)

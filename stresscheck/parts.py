@@ -13,6 +13,8 @@ import stat
 from dataclasses import dataclass, field
 from pathlib import Path
 
+import numpy as np
+
 from . import schema
 from .errors import InputError
 from .tomlio import check_keys, optional_text, read_toml, require_str, shorten, type_name
@@ -57,6 +59,50 @@ class Part:
         return v if isinstance(v, Spread) else Spread(v, v, v)
 
 
+@dataclass(frozen=True)
+class Curve:
+    """A sheet's table of a factor against a quantity (SI), e.g. ripple multipliers
+    against frequency; read by straight lines between the points, held flat beyond."""
+
+    x: tuple[float, ...]
+    y: tuple[float, ...]
+
+    def __call__(self, x):
+        return np.interp(np.asarray(x, dtype=float), self.x, self.y)
+
+    def lowest_from(self, x):
+        """The smallest factor at ``x`` or beyond (per element) [1]: a bound for a
+        spread of frequencies at and above ``x``."""
+        x = np.asarray(x, dtype=float)
+        ys = np.array(self.y)
+        beyond = np.where(np.array(self.x)[None, :] >= x[..., None], ys, np.inf)
+        return np.minimum(self(x), beyond.min(axis=-1))
+
+
+def parse_curve(raw, spec, path, key) -> Curve:
+    """``{ "<x with unit>" = factor, ... }`` -> Curve, x in SI, factors > 0."""
+    if not isinstance(raw, dict) or not raw:
+        raise InputError(path, key, f"expected a table such as {{ \"{_curve_example(spec)}\""
+                         " = 0.8, ... }: points of a factor against "
+                         f"{spec.curve.replace('_', ' ')}")
+    points = []
+    for x_raw, y_raw in raw.items():
+        x = parse_quantity(x_raw, spec.curve, path, f"{key}.{x_raw}")
+        y = parse_quantity(y_raw, "fraction", path, f"{key}.{x_raw}")
+        if y <= 0:
+            raise InputError(path, f"{key}.{x_raw}", "a factor must be greater than zero")
+        points.append((x, y))
+    points.sort()
+    if len({x for x, _ in points}) != len(points):
+        raise InputError(path, key, "two points at the same abscissa")
+    return Curve(tuple(x for x, _ in points), tuple(y for _, y in points))
+
+
+def _curve_example(spec) -> str:
+    return {"frequency": "100 kHz", "temperature": "85 degC", "voltage": "25 V"}.get(
+        spec.curve, "1")
+
+
 def valid_part_id(part_id) -> bool:
     return isinstance(part_id, str) and bool(PART_ID.match(part_id)) and ".." not in part_id
 
@@ -95,6 +141,9 @@ def load_part(path: str | Path) -> Part:
         for key, raw in table.items():
             spec = tables[section][key]
             full = f"{section}.{key}"
+            if spec.curve:
+                target[key] = parse_curve(raw, spec, path, full)
+                continue
             if spec.spread:
                 value = parse_spread(raw, spec.dimension, path, full)
                 low = value.min
@@ -130,6 +179,17 @@ def _check_consistency(part: Part) -> None:
         raise InputError(path, "electrical.capacitance", "a capacitor needs a capacitance")
     if part.kind == "inductor" and "inductance" not in e:
         raise InputError(path, "electrical.inductance", "an inductor needs an inductance")
+    r = part.ratings
+    if part.kind == "inductor" and ("i_sat_hot" in r) != ("i_sat_hot_temperature" in r):
+        raise InputError(path, "ratings.i_sat_hot", "i_sat_hot and i_sat_hot_temperature "
+                         "go together")
+    if part.kind == "inductor" and "i_sat_hot" in r:
+        if "i_sat" not in r:
+            raise InputError(path, "ratings.i_sat", "i_sat_hot needs i_sat (the 25 degC "
+                             "value) too")
+        if r["i_sat_hot_temperature"] <= 25.0:
+            raise InputError(path, "ratings.i_sat_hot_temperature", "must be above 25 degC "
+                             "(i_sat is the 25 degC value)")
     if part.kind == "transformer":
         for key in ("primary_turns", "secondary_turns"):
             if key not in e:

@@ -27,7 +27,8 @@ LOSSES_INCLUDED = (
 LOSSES_NOT_INCLUDED = (
     "switching (overlap), C_oss, gate-drive and reverse-recovery losses",
     "core losses of transformer and inductor",
-    "leakage-inductance energy (clamp or snubber loss)",
+    "leakage-inductance energy (clamp or snubber loss; a modelled clamp's power is "
+    "reported under 'clamps' and in the notes, not in these losses)",
 )
 CONVENTIONS = (
     "ratio = stress / allowed (percent of allowed); marginal above the policy's "
@@ -40,8 +41,10 @@ CONVENTIONS = (
     "the input source supplies only DC: the input (or split) capacitors carry all the AC "
     "current (conservative for their ripple rating)",
     "steady-state periodic operation, continuous or discontinuous conduction as found per "
-    "corner (the regime column); no start-up, no leakage spikes or ringing (switch and "
-    "rectifier voltages are before any spike)",
+    "corner (the regime column); no start-up",
+    "leakage spikes: where the transformer has leakage inductance, the voltages of the "
+    "positions it drives include the design's clamp or overshoot allowance (each row's "
+    "note says which); with neither they are not computed",
     "duty ratio = on-time of each switch / its switching period",
     "values in SI base units; temperatures in degC",
 )
@@ -101,6 +104,8 @@ def build_results(evaluation, checks, policy) -> dict:
     review = getattr(design, "review", None)
     if review:
         doc["review"] = dict(review)
+    if getattr(evaluation, "clamps", None):
+        doc["clamps"] = evaluation.clamps
     return stamp_run_id(doc)
 
 

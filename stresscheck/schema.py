@@ -57,6 +57,7 @@ ROLE_KINDS = {
 class Key:
     dimension: str
     spread: bool = False  # a range or tolerance is allowed
+    curve: str | None = None  # a table { "<x with unit>" = value } over this dimension
 
 
 # Part sheet keys: kind -> section -> key -> Key
@@ -64,7 +65,7 @@ PART_KEYS: dict[str, dict[str, dict[str, Key]]] = {
     "mosfet": {
         "ratings": {"v_ds": Key("voltage"), "v_gs": Key("voltage"), "i_d": Key("current"),
                     "i_dm": Key("current"), "t_j_max": Key("temperature"),
-                    "p_d": Key("power")},
+                    "p_d": Key("power"), "v_ds_tc": Key("per_kelvin")},
         "electrical": {"r_ds_on": Key("resistance"), "r_ds_on_tc": Key("per_kelvin"),
                        "r_ds_on_hot": Key("resistance"),
                        "r_ds_on_hot_temperature": Key("temperature"),
@@ -75,7 +76,8 @@ PART_KEYS: dict[str, dict[str, dict[str, Key]]] = {
     },
     "diode": {
         "ratings": {"v_rrm": Key("voltage"), "i_f_avg": Key("current"),
-                    "i_fsm": Key("current"), "t_j_max": Key("temperature")},
+                    "i_fsm": Key("current"), "t_j_max": Key("temperature"),
+                    "v_rrm_tc": Key("per_kelvin")},
         "electrical": {"v_f0": Key("voltage"), "r_d": Key("resistance"),
                        "q_rr": Key("charge"), "c_j": Key("capacitance")},
         "thermal": {"r_th_jc": Key("thermal_resistance")},
@@ -84,14 +86,18 @@ PART_KEYS: dict[str, dict[str, dict[str, Key]]] = {
         "ratings": {"v_rated": Key("voltage"), "i_ripple": Key("current"),
                     "ripple_frequency": Key("frequency"),
                     "ripple_temperature": Key("temperature"), "t_max": Key("temperature"),
-                    "life": Key("time")},
+                    "life": Key("time"),
+                    "ripple_frequency_multipliers": Key("fraction", curve="frequency"),
+                    "ripple_temperature_multipliers": Key("fraction", curve="temperature")},
         "electrical": {"capacitance": Key("capacitance", spread=True),
-                       "esr": Key("resistance")},
+                       "esr": Key("resistance"),
+                       "capacitance_dc_bias": Key("fraction", curve="voltage")},
         "thermal": {"r_th": Key("thermal_resistance")},
     },
     "inductor": {
         "ratings": {"i_sat": Key("current"), "i_rms": Key("current"),
-                    "t_max": Key("temperature")},
+                    "t_max": Key("temperature"), "i_sat_hot": Key("current"),
+                    "i_sat_hot_temperature": Key("temperature")},
         "electrical": {"inductance": Key("inductance", spread=True),
                        "dcr": Key("resistance")},
         "thermal": {"r_th": Key("thermal_resistance")},

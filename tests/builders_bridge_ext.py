@@ -30,15 +30,22 @@ def ext_parts(*, lossless=False, l_leak=None, sync_r_on="4 mohm", **kw):
 
 
 def ext_design(topology="full-bridge", rectifier="center-tap", *, modulation="pwm",
-               sync=False, dead_time=None, **kw):
+               sync=False, dead_time=None, overshoot=None, **kw):
     """A bridge test design with the extension options; current doubler: inductors
-    L1, L2 in one entry; ``sync``: MOSFET rectifiers ("t-srfet")."""
+    L1, L2 in one entry; ``sync``: MOSFET rectifiers ("t-srfet"). Phase shift (whose
+    transformer has leakage inductance) states a rectifier overshoot allowance of 0 %
+    unless ``overshoot`` is given: its tests check the ringing-free relations, and its
+    ngspice decks have no diode capacitance to ring with."""
     doc = bridge_design(topology, rectifier if rectifier != "current-doubler"
                         else "center-tap", **kw)
     doc["converter"]["rectifier"] = rectifier
     doc["converter"]["modulation"] = modulation
     if dead_time is not None:
         doc["converter"]["dead_time"] = dead_time
+    if overshoot is None and modulation == "phase-shift":
+        overshoot = {"rectifier": "0 %"}
+    if overshoot is not None:
+        doc["converter"]["overshoot"] = overshoot
     name = kw.get("name") or f"test {topology} {modulation} {rectifier}" + (
         " synchronous" if sync else "")
     doc["converter"]["name"] = name

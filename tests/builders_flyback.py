@@ -13,18 +13,21 @@ from builders import LOSSLESS, part
 
 def flyback_parts(*, lossless=False, n_p=20, n_s=10, l_m="100 uH", l_m_tol=None,
                   c_out="1000 uF", c_in="20 uF", esr_out="5 mohm", esr_in="5 mohm",
-                  core_area="60 mm^2", rectifier_kind="diode", v_sd=None, r_sd=None):
+                  core_area="60 mm^2", rectifier_kind="diode", v_sd=None, r_sd=None,
+                  l_leak=None):
     """Parts for a flyback test design {id: sheet}; ``rectifier_kind="mosfet"`` adds the
     synchronous rectifier "t-sr" (the switch's sheet, body diode ``v_sd``/``r_sd`` when
-    given) and makes "t-diode" the same MOSFET."""
+    given) and makes "t-diode" the same MOSFET. ``l_leak``: the transformer's leakage
+    inductance (none by default: the spike-free relations are what most tests check)."""
     e = LOSSLESS if lossless else {}
     lm = {"nom": l_m, "tolerance": l_m_tol} if l_m_tol else l_m
     xf = {"primary_turns": n_p, "secondary_turns": n_s, "magnetizing_inductance": lm,
-          "leakage_inductance": "1 uH",
           "r_primary": e.get("r_primary", "30 mohm"),
           "r_secondary": e.get("r_secondary", "10 mohm")}
     if core_area:
         xf["core_area"] = core_area
+    if l_leak:
+        xf["leakage_inductance"] = l_leak
     parts = {
         "t-fet": part("mosfet", "si", {"v_ds": "200 V", "i_d": "30 A", "i_dm": "100 A",
                                        "t_j_max": "175 degC"},

@@ -22,7 +22,9 @@ REFERENCE = Path(__file__).parent / "reference" / "spice"
 CASES = sorted(p.stem for p in REFERENCE.glob("*.cir"))
 #: Element of the deck -> initial-condition key of the deck builders.
 IC_ELEMENTS = {"lout": "lout", "lout2": "lout2", "lm": "lm", "lch": "lch", "llk": "llk",
-               "cco": "cout", "cci": "cin", "cct": "ctop", "ccb": "cbot"}
+               "cco": "cout", "cci": "cin", "cct": "ctop", "ccb": "cbot",
+               # leakage and clamp capacitor of each switch (deck_clamp)
+               "llk0": "llk0", "llk1": "llk1", "cccl0": "ccl0", "cccl1": "ccl1"}
 #: Periods per run and saved at its end (stresscheck.spice.simulate; the README of
 #: tests/reference/spice/).
 RUN_PERIODS, MEASURED_PERIODS = 100, 20

@@ -50,9 +50,26 @@ class Capacitor(DeviceModel):
 
     kind = "capacitor"
 
+    def dc_voltage(self) -> np.ndarray:
+        """DC voltage across the bank at each corner [V]: the input voltage (input
+        capacitors), the output voltage (output capacitors), half the input (each split
+        capacitor of a half bridge)."""
+        role = self.key[0]
+        if role == "output-capacitor":
+            return self.corners["output_voltage"]
+        v_in = self.corners["input_voltage"]
+        return v_in / 2 if role == "split-capacitor" else v_in
+
     def add_to(self, parts: StageParts, t: np.ndarray) -> None:
+        """Capacitance at the corner (tolerance column) times the sheet's DC-bias factor
+        at the bank's DC voltage, where it gives ``capacitance_dc_bias`` (class-2
+        ceramics lose much of their capacitance at a fraction of their rated voltage:
+        the makers' capacitance-vs-DC-bias curves, common practice)."""
         c = tolerance_column(self.corners, self.component, "capacitance",
                              self.part.spread("capacitance").nom)
+        bias = self.electrical.get("capacitance_dc_bias")
+        if bias is not None:
+            c = c * bias(self.dc_voltage())
         parts.capacitors[self.key] = CapacitorBank(
             c * self.devices, self.electrical.get("esr", 0.0) / self.devices)
 

@@ -88,6 +88,10 @@ class Circuit:
     l_out_2: float | None = None  # [H] second output inductor (current doubler)
     dcr_out_2: float = 0.0  # [ohm]
     regime: str = "CCM"  # the analytic model's conduction regime at this corner
+    # leakage clamp of the switches (flyback, push-pull): {"kind": "rcd", "resistance"
+    # [ohm], "capacitance" [F], "diode_drop" [V], "v0" [V] start voltage} or {"kind":
+    # "voltage", "voltage" [V]}, plus "i_pk" [A] the analytic switch current at turn-off
+    clamp: dict | None = None
 
 
 def circuit_at(ev, i: int) -> Circuit:
@@ -140,6 +144,9 @@ def circuit_at(ev, i: int) -> Circuit:
     if ("input-capacitor", 0) in st.capacitors:
         cin = st.capacitors[("input-capacitor", 0)]
         c.c_in = CapacitorModel(float(cin.c[i]), cin.esr)
+    if getattr(ev.design, "clamp", None) is not None and xf is not None:
+        from ..spikes import circuit_clamp  # the clamp's parameters and start values
+        c.clamp = circuit_clamp(ev.design, st, res, i)
     c.c_split = [CapacitorModel(float(b.c[i]), b.esr)
                  for (role, _), b in sorted(st.capacitors.items()) if role == "split-capacitor"]
     return c

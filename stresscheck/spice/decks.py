@@ -7,17 +7,17 @@ topology is its deck module and one line of :data:`DECKS`.
 
 from __future__ import annotations
 
-from . import deck_bridge, deck_buck_boost, deck_flyback, deck_forward, deck_pfc_boost
+from . import deck_bridge, deck_buck_boost, deck_clamp, deck_forward, deck_pfc_boost
 from .circuit import Circuit
 from .elements import Deck, Layout
 
 DECKS: dict[str, Deck] = {
     "full-bridge": deck_bridge.DECK,
     "half-bridge": deck_bridge.DECK,
-    "push-pull": deck_bridge.DECK,
+    "push-pull": deck_clamp.PUSH_PULL,  # deck_bridge's, or with leakage and clamps
     "forward": deck_forward.DECK,
     "two-switch-forward": deck_forward.DECK,
-    "flyback": deck_flyback.DECK,
+    "flyback": deck_clamp.FLYBACK,  # deck_flyback's, or with leakage and a clamp
     "buck": deck_buck_boost.BUCK,
     "boost": deck_buck_boost.BOOST,
     "pfc-boost": deck_pfc_boost.DECK,

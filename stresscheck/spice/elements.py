@@ -79,6 +79,10 @@ class Layout:
     caps: dict[tuple[str, int], tuple[str, str, str, str, str]] = field(default_factory=dict)
     windings: dict[str, tuple[str, float]] = field(default_factory=dict)
     inductors: dict[str, float] = field(default_factory=dict)
+    # leakage clamps (deck_clamp): per switch a dict with "kind" ("rcd": "ic_key",
+    # "sense", "plus", "minus", "capacitance", "resistance"; "voltage": "sense",
+    # "voltage")
+    clamps: list[dict] = field(default_factory=list)
     r_load: float = 1.0  # [ohm]
     r_damp: float = 1.0  # [ohm] choke damping resistor, between ``vsrc`` and ``bus``
     l_choke: float = 1.0  # [H]
@@ -339,12 +343,13 @@ class NetlistWriter:
         lay.r_load = c.v_out / c.i_out
         self.add(f"Rload out 0 {lay.r_load:.12g}")
 
-    def finish(self, ts: float, t_stop: float, t_measure: float) -> str:
+    def finish(self, ts: float, t_stop: float, t_measure: float,
+               steps: int = STEPS_PER_PERIOD) -> str:
         """``.tran`` to ``t_stop`` [s] from the initial conditions (``uic``), maximum step
-        ts/:data:`STEPS_PER_PERIOD`, saving from one step before the last ``t_measure``
-        [s]; ``.end``. Returns the netlist text."""
-        t_start = max(t_stop - t_measure - ts / STEPS_PER_PERIOD, 0.0)
-        h = ts / STEPS_PER_PERIOD
+        ts/``steps`` (default :data:`STEPS_PER_PERIOD`), saving from one step before the
+        last ``t_measure`` [s]; ``.end``. Returns the netlist text."""
+        t_start = max(t_stop - t_measure - ts / steps, 0.0)
+        h = ts / steps
         self.add(f".tran {h:.12g} {t_stop:.12g} {t_start:.12g} {h:.12g} uic")
         self.add(".end")
         return "\n".join(self.lines) + "\n"

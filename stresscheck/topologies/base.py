@@ -125,6 +125,9 @@ class Stage:
     line_frequency: np.ndarray | None = None
     # (hold_up_time [s], hold_up_voltage [V]) when the design asks for a hold-up check
     hold_up: tuple[float, float] | None = None
+    # a clamp's hand-over of the leakage current (spikes.handover): (l_lk [H], i_pk [A],
+    # v_r [V], fs [Hz]) -> (t_s [s], v_c [V]); None: no clamp modelled
+    handover: object = None
 
     def count(self, role: str) -> int:
         return sum(1 for r, _ in self.devices if r == role)
@@ -163,6 +166,7 @@ class StageResult:
     # capacitance a capacitor position needs [F], (N,) (hold-up), checked by the capacitor
     # against its capacitance at the lowest tolerance
     capacitance_needed: dict[tuple[str, int], np.ndarray] = field(default_factory=dict)
+    clamp_loss: np.ndarray | None = None  # [W] a modelled clamp's power, in the balance
 
 
 @runtime_checkable

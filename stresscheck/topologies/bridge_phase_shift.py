@@ -422,7 +422,8 @@ def evaluate(st: Stage) -> StageResult:
                        input_current=i_dc, winding_loss=p_wind, b_peak=b_peak,
                        i_m_peak=i_m_peak, i_l_start=i_a0, i_m_start=-i_m0, body=body,
                        invalid=invalid, regime=np.full(io.shape, "CCM", dtype=object),
-                       notes=["rectifier voltages are before any ringing; the zero-voltage transitions "
+                       notes=["the model's rectifier voltages are before any ringing (the "
+                              "design's overshoot allowance adds it); the zero-voltage transitions "
                               "are taken as ideal (no check that the leakage energy charges C_oss)"]
                        + (["synchronous rectifiers gated from the lagging leg: each channel on "
                            "from one dead time after its half period starts to its end; the "

@@ -358,8 +358,10 @@ def evaluate(st: Stage) -> StageResult:
                        i_m_peak=i_m, i_l_start=i_l[0].a[:, 0], i_m_start=-i_m,
                        body=body_result, invalid=invalid,
                        regime=np.full(io.shape, "CCM", dtype=object),
-                       notes=["switch and rectifier voltages are before any leakage spike or ringing; "
-                              "leakage inductance is not modelled with PWM modulation"])
+                       notes=["the model's voltages are before any leakage spike or ringing (the "
+                              "design's clamp or overshoot allowance adds it where the leakage "
+                              "drives a position); leakage inductance is not in the PWM model's "
+                              "currents"])
 
 
 def _drop(group, i: PWL) -> PWL:

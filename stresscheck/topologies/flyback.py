@@ -109,10 +109,8 @@ Stresses
       v_bus(t) + (v_out(t) + v_f0 + (r_d + R_s)·i_s(t))/n
   (synchronous: the body-diode drop in the dead times, R_DS(on),SR·i_s in the channel),
   with v_out the terminal voltage of the output bank (its ESR step at the start of the
-  off-time included), and v_bus in the idle interval. This is the voltage *before any
-  leakage spike*: leakage inductance, the clamp or snubber and the ringing of the drain
-  capacitance in the idle interval are not modelled (the stress leaves no allowance for
-  them; a clamp and leakage allowance is a later addition).
+  off-time included), and v_bus in the idle interval: the voltage before any leakage
+  spike (``spikes.apply`` adds it; with a clamp see also :mod:`.flyback_handover`).
 * Rectifier v_reverse_peak: v_out(t) + n·(v_bus(t) − (R_DS(on) + R_p)·i_p(t)) in the
   on-time, v_out(t) in the idle interval (ripple maxima included).
 * Output bank: i_s − I_o (large in a flyback: the pulsed secondary current against a
@@ -129,8 +127,8 @@ off-time current pulse tall, raising every rms current, while in CCM the right-h
 zero of the control loop falls with (1 − D)²). 0.7 sits at the conservative end of that
 range; give max_duty to use your controller's figure.
 
-Not modelled: leakage inductance (read from the part sheet but not used), clamp or
-snubber, switch and diode capacitances (no ringing), reverse recovery, core loss,
+Not modelled: the leakage's turn-on commutation in CCM (the clamp is not fed back at
+CCM corners), switch and diode capacitances (no ringing), reverse recovery, core loss,
 body-diode conduction of Q1 (synchronous rectifier with dead time at loads where the
 secondary current reverses: refused).
 """
@@ -144,6 +142,7 @@ from ..regulation import solve_duty
 from ..waveforms import (Grid, capacitor_voltage, capacitor_voltage_samples, max_over,
                          per_corner)
 from .base import Layout, RoleSpec, Stage, StageResult
+from .flyback_handover import apply_handover, dcm_handover_charge
 
 K_SUB = 6  # trapezoidal steps per conduction interval
 S = 4 * K_SUB + 1  # segments per period
@@ -275,13 +274,15 @@ class _Params:
     have L_s·di/dt = −(V + R·i) with (V, R) in ``off`` [V, ohm], each (N,).
     """
 
-    def __init__(self, st: Stage, va, vc):
+    def __init__(self, st: Stage, va, vc, ho=None):
         xf = st.transformer
         (sw,), (rect,) = st.group("switch"), st.group("rectifier")
         cin = st.capacitors[("input-capacitor", 0)]
         cout = st.capacitors[("output-capacitor", 0)]
         self.n = xf.n_s / xf.n_p
-        self.l = xf.l_m
+        # a clamp's hand-over ``ho`` = (t_s [s], q_lk [C], mask) (flyback_handover)
+        self.l = xf.l_m + (xf.l_leak * ho[2] if ho is not None else 0.0)
+        self.t_s, self.q_lk = ho[:2] if ho is not None else (0.0, 0.0)
         self.ls = xf.l_m * self.n ** 2
         self.ts = 1.0 / st.fs
         self.io = st.io
@@ -300,7 +301,8 @@ class _Params:
         # beyond the duty limit 1 − 2·t_d·fs (refused by the engine with its reason)
         # the dead times share what is left of the off-time
         td = np.minimum(self.td, np.maximum((1 - d) * self.ts, 0.0) / 2)
-        return [td, np.maximum((1 - d) * self.ts - 2 * td, 0.0), td]
+        ta = np.minimum(td + self.t_s, np.maximum((1 - d) * self.ts - td, 0.0))
+        return [ta, np.maximum((1 - d) * self.ts - ta - td, 0.0), td]
 
 
 def _secondary(p: _Params, times):
@@ -329,7 +331,7 @@ def _ccm(p: _Params):
         h1 = d * p.ts / K_SUB
         u1, w1 = _affine(p.va, p.ra, p.l, h1)
         u2, w2, q_u, q_w = _secondary(p, p.off_times(d))
-        s0 = (p.io * p.ts - q_w) / q_u  # charge balance
+        s0 = (p.io * p.ts + p.q_lk / p.n - q_w) / q_u  # charge balance
         i1 = (p.n * s0 - w1[:, -1]) / u1[:, -1]  # on-time ends at n·s0
         end = p.n * (s0 * u2[:, -1] + w2[:, -1])  # magnetizing current after one period
         return end - i1, i1, s0
@@ -346,9 +348,12 @@ def _dcm(p: _Params):
     def delivered(d):
         h1 = d * p.ts / K_SUB
         s0 = _affine(p.va, p.ra, p.l, h1)[1][:, -1] / p.n
-        t2 = _reset_time(s0, p.v_diode, p.r_diode, p.ls)
+        q, s_a, t_a = (dcm_handover_charge(p, s0, _affine, _charge, K_SUB)  # as evaluated
+                       if np.any(p.t_s) else (0.0, s0, 0.0))
+        t2 = _reset_time(s_a, p.v_diode, p.r_diode, p.ls)
         u2, w2 = _affine(-p.v_diode, p.r_diode, p.ls, t2 / K_SUB)
-        return _charge(s0[:, None] * u2 + w2, t2 / K_SUB) / p.ts, s0, t2
+        q = q + _charge(s_a[:, None] * u2 + w2, t2 / K_SUB)
+        return q / p.ts, s0, t_a + t2
 
     duty, reachable = solve_duty(lambda d: delivered(d)[0], p.io, 0.0, DUTY_SEARCH_MAX)
     _, s0, t2 = delivered(duty)
@@ -375,8 +380,10 @@ def evaluate(st: Stage) -> StageResult:
     i_dc = vo * io / v_in  # first guess of the source current [A]
     va = v_in + cin.esr * i_dc
     vc = vo - cout.esr * io
+    ho = ((zn, zn, zn) if getattr(st, "handover", None) is not None and not sync
+          and xf.l_leak > 0 else None)  # a clamp's hand-over (diode, DCM corners)
     for _ in range(MAX_PASSES):
-        p = _Params(st, va, vc)
+        p = _Params(st, va, vc, ho)
         d_c, i1_c, s0_c, ok_c = _ccm(p)
         if sync:  # forced continuous: the channel conducts both ways
             ccm, dcm_fits = np.ones_like(ok_c), np.zeros_like(ok_c)
@@ -393,7 +400,7 @@ def evaluate(st: Stage) -> StageResult:
         s0 = np.where(use_ccm, s0_c, s0_d)
         t1 = duty * ts
         times = p.off_times(duty)
-        times[1] = np.where(use_ccm, times[1], t2_d)
+        times[1] = np.where(use_ccm, times[1], np.maximum(t2_d - times[0], 0.0))
         t3 = np.maximum(ts - t1 - sum(times), 0.0)
         h1 = t1 / K_SUB
         u1, w1 = _affine(p.va, p.ra, p.l, h1)
@@ -402,6 +409,8 @@ def evaluate(st: Stage) -> StageResult:
         sec = s0[:, None] * u2 + w2  # (N, 3K+1) secondary nodes [A]
         if not use_ccm.all():  # DCM: the off-time ends at zero (exact up to round-off)
             sec[~use_ccm, 2 * K_SUB:] = 0.0
+        if ho is not None:  # delayed commutation: i_s = (i_m − i_lk)/n in t_s
+            ho_new, p_clamp = apply_handover(st, p, ho, sec, prim, s0, use_ccm, K_SUB)
 
         steps = [h1] + [t / K_SUB for t in times]
         grid = Grid(np.concatenate([np.repeat(h[:, None], K_SUB, 1) for h in steps]
@@ -419,7 +428,10 @@ def evaluate(st: Stage) -> StageResult:
         vc_new = (capacitor_voltage(i_cout, cout.c, 0.0, vo).mean_over(MASK_OFF)
                   - cout.esr * io)
         done = (np.allclose(va_new, va, rtol=PASS_RTOL, atol=0)
-                and np.allclose(vc_new, vc, rtol=PASS_RTOL, atol=0))
+                and np.allclose(vc_new, vc, rtol=PASS_RTOL, atol=0)
+                and (ho is None or (np.allclose(ho_new[1], ho[1], rtol=PASS_RTOL, atol=0)
+                                    and np.array_equal(ho_new[2], ho[2]))))
+        ho = ho_new if ho is not None else None
         va, vc = va_new, vc_new
         if done:
             break
@@ -459,8 +471,8 @@ def evaluate(st: Stage) -> StageResult:
                 f"to {DUTY_SEARCH_MAX:g}: the conduction drops (switch, windings, "
                 "rectifier, capacitor ESR) take more than the input can supply; lower "
                 "them, or raise N_s/N_p")]
-    notes = ["switch v_peak is before the leakage-inductance spike: no clamp or snubber "
-             "is modelled, add its allowance before signing off"]
+    notes = ["the model's voltages are spike-free; the leakage spike comes from the "
+             "design's clamp or overshoot allowance (each row's note says which)"]
     if sync and st.dead_time > 0:
         k1, k3 = 2 * K_SUB, 3 * K_SUB  # nodes: end of dead time A, start of dead time B
         invalid.append((~unreachable & ((sec[:, k1] <= 0) | (sec[:, k3] <= 0)
@@ -482,5 +494,6 @@ def evaluate(st: Stage) -> StageResult:
     duty = np.where(unreachable, np.minimum(duty, st.duty_limit), duty)
     return StageResult(duty=duty, grid=grid, currents=currents, v_block=v_block,
                        input_current=i_dc, winding_loss=p_wind, b_peak=b_peak,
+                       clamp_loss=p_clamp if ho is not None else None,
                        i_m_peak=i_m_peak, i_l_start=np.zeros_like(duty), i_m_start=i1,
                        body=body, invalid=invalid, regime=regime, notes=notes)

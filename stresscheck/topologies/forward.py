@@ -43,7 +43,8 @@ side, shared), :mod:`.forward_diode` (diode rectifiers, CCM and DCM) and
 limit and the choice between the two rectifier models.
 
 Not modelled: leakage inductance and the turn-off spike it causes (stresses are "before
-any spike"), switch and diode capacitances (the drain rings after the reset; in the idle
+any spike"; ``spikes.apply`` adds the design's overshoot allowance), switch and diode
+capacitances (the drain rings after the reset; in the idle
 interval the two-switch forward's midpoint voltages are set by them, so its switches and
 clamp diodes are given the conservative bound V_bus there), reverse recovery, core loss;
 with synchronous rectifiers: diode emulation (light-load DCM), self-driven gate timing,

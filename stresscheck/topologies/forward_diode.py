@@ -196,5 +196,6 @@ def evaluate(st: Stage) -> StageResult:
                        input_current=i_dc, winding_loss=p_wind, b_peak=b_peak,
                        i_m_peak=i_mpk, i_l_start=i_start, i_m_start=-delta,
                        invalid=invalid, regime=regime,
-                       notes=["switch and diode voltages are before any leakage spike or ringing",
+                       notes=["the model's voltages are before any leakage spike or ringing (the design's "
+                              "overshoot allowance adds it)",
                               "b_peak is the swing from zero flux: remanence is not included"])

@@ -263,7 +263,8 @@ def evaluate(st: Stage) -> StageResult:
                         "modelled; use a MOSFET in the freewheel role too (forced "
                         "continuous conduction), or raise the minimum load or the output "
                         "inductance"))
-    notes = ["switch and diode voltages are before any leakage spike or ringing",
+    notes = ["the model's voltages are before any leakage spike or ringing (the design's "
+             "overshoot allowance adds it)",
              "b_peak is the swing from zero flux: remanence is not included"]
     if np.any(i_start < 0):
         notes.append("forced continuous conduction: the output inductor current turns "
