@@ -49,7 +49,7 @@ class Design:
     input_voltage: Spread  # [V]
     input_surge: float | None  # [V]
     output_voltage: Spread  # [V]
-    output_current: Spread  # [A]
+    output_current: Spread  # [A]; min may be 0 (no load)
     current_limit: float | None  # [A]
     ambient_temperature: Spread  # [degC]
     components: list[Component] = field(default_factory=list)
@@ -65,6 +65,17 @@ class Design:
     clamp: Clamp | None = None  # [converter] clamp: RCD or voltage clamp of the switches
     overshoot: dict[str, float] = field(default_factory=dict)  # "switch"/"rectifier" -> [1]
     measured: list = field(default_factory=list)  # [[measured]] (measured.Measurement)
+    # [operating] minimum_load: a bleeder across the output, ("resistance", R [ohm]) or
+    # ("current", I [A]); None when not given. Drawn at every corner on top of
+    # output_current (see minimum_load_current).
+    minimum_load: tuple[str, float] | None = None
+
+    def minimum_load_current(self, v_out):
+        """Current the minimum load draws at output voltage ``v_out`` [V] -> [A]."""
+        if self.minimum_load is None:
+            return 0.0 * v_out
+        kind, value = self.minimum_load
+        return v_out / value if kind == "resistance" else 0.0 * v_out + value
 
     def by_role(self, role: str) -> list[Component]:
         return [c for c in self.components if c.role == role]
@@ -78,7 +89,7 @@ CONVERTER_KEYS = ("name", "topology", "rectifier", "modulation", "switching_freq
                   "dead_time", "max_duty", "clamp", "overshoot")
 OPERATING_KEYS = ("input", "input_voltage", "input_surge", "output_voltage", "output_current",
                   "current_limit", "ambient_temperature", "line_frequency", "hold_up_time",
-                  "hold_up_voltage")
+                  "hold_up_voltage", "minimum_load")
 COMPONENT_KEYS = ("ref", "refs", "role", "part", "r_th_ca", "r_th_ja", "parallel", "note")
 MAX_NAME = 200  # converter.name: one line in report headers and on the terminal
 # A designator: up to 40 printable characters, no blanks, control or format characters
@@ -154,7 +165,14 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
 
     vin = spread(op, "input_voltage", "voltage", "operating.")
     vo = spread(op, "output_voltage", "voltage", "operating.")
-    io = spread(op, "output_current", "current", "operating.")
+    io = spread(op, "output_current", "current", "operating.", positive=False)
+    if io.min < 0:
+        raise InputError(path, "operating.output_current", "must not be negative (0 A is "
+                         "no load)")
+    if io.max <= 0:
+        raise InputError(path, "operating.output_current", "the maximum must be greater "
+                         "than zero")
+    minimum_load = _minimum_load(op, path)
     ta = spread(op, "ambient_temperature", "temperature", "operating.", positive=False)
     surge = scalar(op, "input_surge", "voltage", "operating.")
     if surge is not None and surge < vin.max:
@@ -179,7 +197,7 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
                          "use the file name)")
 
     design = Design(path, name, topology, rectifier, modulation, fsw, dead_time, max_duty,
-                    vin, surge, vo, io, ilim, ta)
+                    vin, surge, vo, io, ilim, ta, minimum_load=minimum_load)
     _load_line(design, op, spread, scalar)
     design.clamp = load_clamp(conv, path)
     design.overshoot = load_overshoot(conv, path)
@@ -231,6 +249,25 @@ def _load_line(design, op, spread, scalar) -> None:
             and design.hold_up_voltage >= design.output_voltage.min:
         raise InputError(path, "operating.hold_up_voltage", f"must lie below the lowest "
                          f"output voltage ({design.output_voltage.min:g} V)")
+
+
+def _minimum_load(op, path):
+    """``[operating] minimum_load``: a resistance (bleeder across the output) or a
+    current (a load always drawn), > 0; None when absent."""
+    if "minimum_load" not in op:
+        return None
+    key = "operating.minimum_load"
+    value = op["minimum_load"]
+    for kind in ("resistance", "current"):
+        try:
+            number = parse_quantity(value, kind, path, key)
+        except InputError:
+            continue
+        if number <= 0:
+            raise InputError(path, key, "must be greater than zero")
+        return (kind, number)
+    raise InputError(path, key, f"expected a resistance such as \"2.2 kohm\" (a bleeder "
+                     f"across the output) or a current such as \"50 mA\", got {shorten(value)}")
 
 
 def _load_components(doc, path, library) -> list[Component]:

@@ -101,7 +101,9 @@ def build_stage(design, corners: CornerSet, devices: list[DeviceModel],
         device.add_to(parts, t[device.key])
     return Stage(topology=design.topology, rectifier=design.rectifier,
                  modulation=design.modulation, v_in=corners["input_voltage"],
-                 vo=corners["output_voltage"], io=corners["output_current"],
+                 vo=corners["output_voltage"],
+                 io=corners["output_current"]
+                 + design.minimum_load_current(corners["output_voltage"]),
                  fs=corners["switching_frequency"],
                  duty_limit=topology_duty_limit(design, corners["switching_frequency"]),
                  dead_time=design.dead_time, devices=parts.semiconductors,
