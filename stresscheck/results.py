@@ -78,6 +78,9 @@ def build_results(evaluation, checks, policy) -> dict:
         corner_rows.append(row)
     units = dict(corners.units)
     units["duty"] = "1"
+    regimes: dict[str, list[str]] = {}
+    for row in corner_rows:
+        regimes.setdefault(row["regime"], []).append(row["id"])
     doc = {
         "schema": schema.RESULTS_SCHEMA,
         "design": design.name,
@@ -98,6 +101,7 @@ def build_results(evaluation, checks, policy) -> dict:
         "corner_keys": list(corners.columns),
         "corner_units": units,
         "corners": corner_rows,
+        "regimes": regimes,
         "checks": [c.as_dict() for c in rows],
         "sweeps": input_sweeps(evaluation, rows),
     }

@@ -62,6 +62,7 @@ import numpy as np
 
 from ..waveforms import PWL, Grid, capacitor_voltage, per_corner
 from .base import Stage, StageResult
+from .bridge_light import LightLoad
 from .bridge_rectifier import GROUPS, rectifier_groups
 
 ON1, F1A, F1B, F1C, ON2, F2A, F2B, F2C = range(8)
@@ -127,6 +128,18 @@ def _segment_voltages(st, ga, gb, emf, m_share):
         fw = -(ga.drop(i_a, body_a) + gb.drop(i_b, body_b))
     u[:, MASK_FW] = fw[:, MASK_FW]
     return [u - (vo + st.inductors[0].dcr * io)[:, None]]
+
+
+def _below_ccm(st, i_l, share):
+    """Corners (N,) below the CCM boundary that :mod:`.bridge_light` solves: diode
+    rectifiers (center-tap or bridge) where the inductor current reaches zero or a
+    rectifier's freewheel share (i_L ∓ i_m/n)/2 would go negative, and no-load corners."""
+    io = st.io
+    if st.rectifier == "current-doubler" or rectifier_groups(st)[0].sync:
+        return np.zeros(io.shape, bool)
+    (l1,) = i_l
+    low = np.minimum(((l1 - share) / 2).min(MASK_FW), ((l1 + share) / 2).min(MASK_FW))
+    return (io <= 0) | (l1.min() <= 0) | (low < 0)
 
 
 def _balance_duty(u, ts, t_d):
@@ -203,6 +216,7 @@ def evaluate(st: Stage) -> StageResult:
     v_src = st.v_in / 2 if top == "half-bridge" else st.v_in.copy()
     gain = n if doubler else 2 * n  # V_o = gain·D·V_src, lossless
     i_m = v_src * (st.vo / (gain * v_src)) * ts / (2 * xf.l_m)
+    light_mask, light = None, None
     for _ in range(BUS_PASSES):
         emf_on = v_src - r_prim * n * i_sec  # mean primary emf during the on-interval
         u = _segment_voltages(st, ga, gb, emf_on, i_m / n)
@@ -217,6 +231,18 @@ def evaluate(st: Stage) -> StageResult:
         im_b = np.where(MASK_ON2 | MASK_FW2, -1.0, 1.0)
         mag = grid.wave(im_a[None, :] * i_m_new[:, None], im_b[None, :] * i_m_new[:, None])
         share = mag / n
+        if light_mask is None:  # decided once, on the first pass's CCM solution
+            light_mask = _below_ccm(st, i_l, share)
+        if light_mask.any():  # light-load regimes (bridge_light) at those corners
+            light = LightLoad(st, ga, gb, light_mask, v_src, r_prim, np.full(io.shape, 0.5))
+            dt_new, la, lb, ma, mb = light.apply(grid.dt, i_l[0].a, i_l[0].b, mag.a, mag.b)
+            grid = Grid(dt_new)
+            i_l, mag = [grid.wave(la, lb)], grid.wave(ma, mb)
+            share = mag / n
+            duty, lam, i_m_new = duty.copy(), lam.copy(), i_m_new.copy()
+            duty[light.idx] = light.duty
+            i_m_new[light.idx] = light.i_m_peak
+            lam[light.idx] = 2 * light.p["lm"] * light.i_m_peak
         if doubler:
             l1, l2 = i_l
             both = l1 + l2
@@ -311,6 +337,11 @@ def evaluate(st: Stage) -> StageResult:
     else:
         v_a = (emf2 * n - l1 * r_s - _drop(gb, l1)).max(MASK_ON2)
         v_b = (emf1 * n - l1 * r_s - _drop(ga, l1)).max(MASK_ON1)
+    if light is not None:  # reverse voltage after a group stops (FW1, IDLE)
+        idx = light.idx
+        v_a, v_b = v_a.copy(), v_b.copy()
+        v_a[idx] = np.maximum(v_a[idx], light.blocking(st.vo, gb.drop(io)[idx]))
+        v_b[idx] = np.maximum(v_b[idx], light.blocking(st.vo, ga.drop(io)[idx]))
     for k in a_pos:
         v_block[("rectifier", k)] = v_a
     for k in b_pos:
@@ -331,6 +362,15 @@ def evaluate(st: Stage) -> StageResult:
     b_peak = lam / (2 * xf.n_p * xf.core_area) if xf.core_area else None
 
     i_min = np.min([w.min() for w in i_l], axis=0)
+    regime = np.full(io.shape, "CCM", dtype=object)
+    if sync:  # the channels conduct both ways: never discontinuous
+        regime[i_min < 0] = "forced-CCM"
+    ccm = np.ones(io.shape, bool)
+    if light is not None:
+        regime[light.idx] = light.regime
+        ccm[light.idx] = False
+        clamp = np.zeros(io.shape, bool)
+        clamp[light.idx] = light.body_diode_clamp()
     if sync:
         # forward current during the body-diode intervals (zero-length ones included)
         body_min = np.minimum(*[w.min(mask)
@@ -345,19 +385,24 @@ def evaluate(st: Stage) -> StageResult:
     else:
         what = "an output inductor current" if doubler else "the output inductor current"
         invalid = [
-            (i_min <= 0, f"{what} falls to zero (discontinuous conduction), which this "
-                         "bridge model does not cover yet; raise the minimum load or the "
-                         "output inductance, or use synchronous rectifiers"),
-            (np.minimum(cur_a.min(), cur_b.min()) < 0,
+            (ccm & (i_min <= 0), f"{what} falls to zero (discontinuous conduction), "
+                         "which this bridge model does not cover yet; raise the minimum "
+                         "load or the output inductance, or use synchronous rectifiers"),
+            (ccm & (np.minimum(cur_a.min(), cur_b.min()) < 0),
              "the magnetizing current exceeds the inductor current in freewheel, so one "
              "rectifier would stop conducting (not modelled); raise the magnetizing "
              "inductance or the minimum load"),
         ]
+        if light is not None:
+            invalid.append((clamp, "in the freewheel after a rectifier stops, the "
+                            "primary voltage would exceed the source and the magnetizing "
+                            "current return through the switches' body diodes (not "
+                            "modelled)"))
     return StageResult(duty=duty, grid=grid, currents=currents, v_block=v_block,
                        input_current=i_dc, winding_loss=p_wind, b_peak=b_peak,
-                       i_m_peak=i_m, i_l_start=i_l[0].a[:, 0], i_m_start=-i_m,
+                       i_m_peak=i_m, i_l_start=i_l[0].a[:, 0], i_m_start=mag.a[:, 0],
                        body=body_result, invalid=invalid,
-                       regime=np.full(io.shape, "CCM", dtype=object),
+                       regime=regime,
                        notes=["the model's voltages are before any leakage spike or ringing (the "
                               "design's clamp or overshoot allowance adds it where the leakage "
                               "drives a position); leakage inductance is not in the PWM model's "
