@@ -167,8 +167,8 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
     vo = spread(op, "output_voltage", "voltage", "operating.")
     io = spread(op, "output_current", "current", "operating.", positive=False)
     if io.min < 0:
-        raise InputError(path, "operating.output_current", "must not be negative (0 A is "
-                         "no load)")
+        raise InputError(path, "operating.output_current", "must be 0 A (no load) or greater "
+                         "than zero")
     if io.max <= 0:
         raise InputError(path, "operating.output_current", "the maximum must be greater "
                          "than zero")

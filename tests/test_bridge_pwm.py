@@ -111,8 +111,8 @@ def test_synchronous_conversion_ratio(tmp_path, rectifier):
 def test_synchronous_forced_ccm_at_light_load(tmp_path):
     """[EM] ch. 5: with synchronous rectifiers the inductor current reverses at light
     load and the CCM relations still hold: ripple (n·V_in − V_o)·D·Ts/L, rms
-    √(I_o² + ΔI²/12), mean I_o, although I_o < ΔI/2. The same design with diodes is
-    refused (discontinuous conduction is not modelled)."""
+    √(I_o² + ΔI²/12), mean I_o, although I_o < ΔI/2 (regime forced-CCM there). The same
+    design with diodes is discontinuous at those corners."""
     parts = ext_parts(lossless=True, l_m="1 H", c_in="1 F")
     io = {"min": "1 A", "max": "10 A"}
     ev = case(tmp_path / "sync", parts=parts, sync=True, io=io)
@@ -123,9 +123,15 @@ def test_synchronous_forced_ccm_at_light_load(tmp_path):
     assert (ripple[light] / 2 > 1.0).all()  # the current reverses
     np.testing.assert_allclose(values(ev, "L1", "i_rms"),
                                np.sqrt(c["output_current"] ** 2 + ripple ** 2 / 12), rtol=REL)
-    assert set(ev.result.regime) == {"CCM"}
-    with pytest.raises(RegulationError, match="discontinuous conduction"):
-        case(tmp_path / "diode", parts=parts, io=io)
+    # the regime says so per corner: forced CCM where the current reverses
+    np.testing.assert_array_equal(ev.result.regime,
+                                  np.where(values(ev, "L1", "i_peak") - ripple < 0,
+                                           "forced-CCM", "CCM"))
+    assert set(ev.result.regime[light]) == {"forced-CCM"}
+    # with diodes the same corners are discontinuous (bridge_light; tests in
+    # test_bridge_light.py)
+    ev_d = case(tmp_path / "diode", parts=parts, io=io)
+    assert set(ev_d.result.regime[light]) == {"DCM"}
 
 
 def test_synchronous_body_diodes_in_dead_time(tmp_path):
