@@ -1,6 +1,9 @@
 """Bridge-family converters: full-bridge (PWM or phase-shift), half-bridge and push-pull,
 with center-tap, full-bridge or current-doubler rectifier, diode or synchronous (MOSFET)
-rectifiers, continuous conduction of the output inductor(s).
+rectifiers. Continuous conduction of the output inductor(s); with PWM and diode
+rectifiers (center-tap or bridge) also the light-load regimes of :mod:`.bridge_light`
+(one rectifier stopped in the freewheel, DCM, pulse skipping at no load). Synchronous
+rectifiers keep forced CCM (regime ``forced-CCM`` where the current reverses).
 
 This module holds the layouts and the duty limits, and hands a stage to its model:
 :mod:`.bridge_pwm` (PWM, all three topologies) or :mod:`.bridge_phase_shift` (the

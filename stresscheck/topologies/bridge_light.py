@@ -37,6 +37,9 @@ to the primary; drops linear, v_f0 + r_d·i, evaluated at each segment's mean cu
         clamp it at the source voltage and return the magnetizing current to the bus
         only if v_w/n exceeded it (v_w < V_o + drops < n·V_src in every regulating
         corner, so it does not happen; the model refuses a corner where it would).
+* Primary switches: in FW1 the primary carries ±v_w/n, in IDLE nothing; each switch's
+        off-state voltage stays within the bus (bridges) or 2·V_in (push-pull), already
+        the on-interval values that the model reports.
 * IDLE: all currents zero; each rectifier blocks V_o (center-tap; on a bridge
         rectifier the pair shares V_o, taken whole for each device: conservative).
 
