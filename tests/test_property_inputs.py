@@ -413,7 +413,8 @@ def design_spec(norm: str):
         "converter.max_duty": Q("fraction", **POS),
         "operating.input_voltage": Q("voltage", **POS, required=True),
         "operating.output_voltage": Q("voltage", **POS, required=True),
-        "operating.output_current": Q("current", **POS, required=True),
+        # 0 A is no load (CONTRACT.md, extensions): only negative values are broken
+        "operating.output_current": Q("current", negative_bad=True, required=True),
         "operating.ambient_temperature": Q("temperature", required=True),
         "operating.input_surge": Q("voltage", **POS),
         "operating.current_limit": Q("current", **POS),
