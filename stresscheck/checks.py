@@ -47,6 +47,7 @@ class Check:
     rss: dict | None = None
     sensitivity: list | None = None
     measured: dict | None = None  # {value, instrument, probe_point, date, mode}
+    margin_k: float | None = None  # temperature checks: allowed − stress [K]
 
     def as_dict(self) -> dict:
         out = {k: getattr(self, k) for k in (
@@ -60,7 +61,22 @@ class Check:
                     if getattr(self, k) is not None})
         if self.measured is not None:
             out["measured"] = self.measured
+        if self.margin_k is not None:
+            out["margin_k"] = self.margin_k
         return out
+
+
+TEMPERATURE_QUANTITIES = ("t_j", "t_hotspot")
+
+
+class _RatedAt:
+    """A part whose ratings hold per corner where the stress carries them (a current
+    rating derated with the case temperature), for ``Rule.allowed``."""
+
+    def __init__(self, part, ratings: dict, idx):
+        self.__dict__.update(vars(part))
+        self.ratings = {**part.ratings, **{k: np.asarray(v, float)[idx]
+                                           for k, v in ratings.items()}}
 
 
 def _f(x) -> float | None:
@@ -81,12 +97,17 @@ def check_stress(stress, policy, corners, temperatures=None) -> Check:
     kinds = corners.kind[idx]
     rules = policy.rules_for(part, q)
 
+    extra_note = getattr(stress, "note", "")  # what the value includes or leaves out
+
+    def with_note(note):
+        return "; ".join(t for t in (note, extra_note) if t)
+
     def empty(status, note, rule=None, stress_value=None, corner=None, needed=None):
         return Check(**base, stress=stress_value, corner=corner, rating=None,
                      rating_key=rule.rating if rule else None, allowed=None, ratio=None,
                      status=status, rule=rule.id if rule else None,
                      rule_source=rule.source if rule else None,
-                     stress_kind=None, note=note, rating_needed=needed)
+                     stress_kind=None, note=with_note(note), rating_needed=needed)
 
     if np.isnan(values).any():
         bad = idx[np.isnan(values)][0]
@@ -131,9 +152,14 @@ def check_stress(stress, policy, corners, temperatures=None) -> Check:
     # allowed per corner: the strictest rule that applies there (first one on a tie)
     allowed = np.full(values.shape, np.nan)
     governing = np.full(values.shape, -1)
+    derated = {k: v for k, v in (getattr(stress, "ratings", None) or {}).items()}
+    rated = _RatedAt(part, derated, idx) if derated else part
     for j, r in enumerate(rules):
         mask = applies(r)
-        a = np.broadcast_to(np.asarray(r.allowed(part, temps(r)), dtype=float),
+        # a per-corner rating (derated) where the rule is a plain factor or margin form
+        use = rated if (r.rating in derated and (r.limit is None or r.curve is not None)) \
+            else part
+        a = np.broadcast_to(np.asarray(r.allowed(use, temps(r)), dtype=float),
                             values.shape)
         take = mask & (np.isnan(allowed) | (a < allowed))
         allowed = np.where(take, a, allowed)
@@ -155,7 +181,7 @@ def check_stress(stress, policy, corners, temperatures=None) -> Check:
     rule = rules[int(governing[g])]
     r_val = ratio[g]
     status = status_of(r_val, policy)
-    notes = [stress.note] if getattr(stress, "note", "") else []  # e.g. a leakage spike
+    notes = []  # the stress's own note (e.g. a leakage spike) is added by with_note
     if not np.isfinite(r_val):
         notes.append("allowed value is zero or negative")
         if rule.curve is not None:
@@ -170,12 +196,17 @@ def check_stress(stress, policy, corners, temperatures=None) -> Check:
         t_rating = stress.rating_temperature[idx[g]]
         notes.append(f"{rule.rating_key} at {t_rating:.4g} °C: {rating:.4g} (the sheet's "
                      "rating at the corner)")
+    if rule.rating in derated and (rule.limit is None or rule.curve is not None):
+        rating = derated[rule.rating][idx[g]]
+        notes.append(f"{rule.rating} derated with the case temperature at this corner")
+    margin = _f(allowed[g] - values[g]) if q in TEMPERATURE_QUANTITIES else None
     return Check(**base, stress=_f(values[g]), corner=corners.ids[idx[g]],
                  rating=_f(rating) if rating is not None else None,
                  rating_key=rule.rating_key,
                  allowed=_f(allowed[g]), ratio=_f(r_val),
                  status=status, rule=rule.id, rule_source=rule.source,
-                 stress_kind=str(kinds[g]), note="; ".join(notes), rating_needed=needed)
+                 stress_kind=str(kinds[g]), note=with_note("; ".join(notes)),
+                 rating_needed=needed, margin_k=margin)
 
 
 def _rating_needed(rules, key, values, applies, temps):

@@ -34,6 +34,8 @@ class Component:
     r_th_ca: float | None = None  # [K/W] case (or hot spot) to ambient, per device
     r_th_ja: float | None = None  # [K/W] junction to ambient, per device
     key: str = ""  # "components[3]" for messages
+    heatsink: str | None = None  # id of a [[heatsinks]] entry the devices are mounted on
+    r_th_cs: float | None = None  # [K/W] case to sink, per device (with heatsink)
 
 
 @dataclass
@@ -76,6 +78,8 @@ class Design:
             return 0.0 * v_out
         kind, value = self.minimum_load
         return v_out / value if kind == "resistance" else 0.0 * v_out + value
+    heatsinks: dict[str, float] = field(default_factory=dict)  # id -> sink to ambient [K/W]
+    gate_voltage: float | None = None  # [V] gate drive; None: per technology default
 
     def by_role(self, role: str) -> list[Component]:
         return [c for c in self.components if c.role == role]
@@ -86,11 +90,13 @@ class Design:
 
 
 CONVERTER_KEYS = ("name", "topology", "rectifier", "modulation", "switching_frequency",
-                  "dead_time", "max_duty", "clamp", "overshoot")
+                  "dead_time", "max_duty", "clamp", "overshoot", "gate_voltage")
 OPERATING_KEYS = ("input", "input_voltage", "input_surge", "output_voltage", "output_current",
                   "current_limit", "ambient_temperature", "line_frequency", "hold_up_time",
                   "hold_up_voltage", "minimum_load")
-COMPONENT_KEYS = ("ref", "refs", "role", "part", "r_th_ca", "r_th_ja", "parallel", "note")
+COMPONENT_KEYS = ("ref", "refs", "role", "part", "r_th_ca", "r_th_ja", "parallel", "note",
+                  "heatsink", "r_th_cs")
+HEATSINK_KEYS = ("id", "r_th", "note")
 MAX_NAME = 200  # converter.name: one line in report headers and on the terminal
 # A designator: up to 40 printable characters, no blanks, control or format characters
 # (no bidirectional overrides or zero-width marks): "Q1", "C10A", "T1.2".
@@ -119,7 +125,7 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
                              "this is a file")
     doc = read_toml(path, "design file")
     check_keys(doc, ("schema", "converter", "operating", "components", "bom", "waivers",
-                     "review", "measured"), path)
+                     "review", "measured", "heatsinks"), path)
     version = require_str(doc, "schema", path)
     if version != schema.DESIGN_SCHEMA:
         raise InputError(path, "schema", f"unknown schema version {shorten(version)}; "
@@ -201,11 +207,14 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
     _load_line(design, op, spread, scalar)
     design.clamp = load_clamp(conv, path)
     design.overshoot = load_overshoot(conv, path)
+    design.gate_voltage = scalar(conv, "gate_voltage", "voltage", "converter.")
     library = PartLibrary(part_folders(path, parts_dirs))
+    design.heatsinks = _load_heatsinks(doc, path)
     design.components = _load_components(doc, path, library)
     design.waivers = read_waivers(doc, path, design.components)
     design.review = load_review(doc, path)
     design.measured = load_measured(doc, path, design.components)
+    _check_mounting(design, doc)
     check_envelope(design)  # what the topology cannot produce, before its options
     layout = layout_for(design)  # raises on unsupported combinations
     layout.validate(design)
@@ -327,3 +336,62 @@ def _load_components(doc, path, library) -> list[Component]:
             raise InputError(path, f"{key}.r_th_ja", "give r_th_ca or r_th_ja, not both")
         components.append(comp)
     return components
+
+
+def _load_heatsinks(doc, path) -> dict[str, float]:
+    """``[[heatsinks]]``: id -> sink-to-ambient thermal resistance [K/W]."""
+    entries = doc.get("heatsinks", [])
+    if not isinstance(entries, list) or not all(isinstance(e, dict) for e in entries):
+        raise InputError(path, "heatsinks", "must be an array of tables [[heatsinks]]")
+    sinks: dict[str, float] = {}
+    for i, entry in enumerate(entries):
+        key = f"heatsinks[{i}]"
+        check_keys(entry, HEATSINK_KEYS, path, f"{key}.")
+        sid = require_str(entry, "id", path, f"{key}.")
+        if not DESIGNATOR.fullmatch(sid):
+            raise InputError(path, f"{key}.id", f"invalid heatsink id {shorten(sid)}: 1 to "
+                             "40 characters, no blanks or control characters")
+        if sid in sinks:
+            raise InputError(path, f"{key}.id", f"duplicate heatsink id '{sid}'")
+        if "r_th" not in entry:
+            raise InputError(path, f"{key}.r_th", "missing key (sink to ambient, e.g. "
+                             "\"1.5 K/W\")")
+        r_th = parse_quantity(entry["r_th"], "thermal_resistance", path, f"{key}.r_th")
+        if r_th <= 0:
+            raise InputError(path, f"{key}.r_th", "must be greater than zero")
+        optional_text(entry, "note", path, f"{key}.")
+        sinks[sid] = r_th
+    return sinks
+
+
+def _check_mounting(design: Design, doc) -> None:
+    """``heatsink`` + ``r_th_cs`` on a component: a semiconductor on a declared sink,
+    instead of r_th_ca / r_th_ja."""
+    path = design.path
+    for comp, entry in zip(design.components, doc["components"]):
+        key = comp.key
+        sid = entry.get("heatsink")
+        if sid is None:
+            if "r_th_cs" in entry:
+                raise InputError(path, f"{key}.r_th_cs", "r_th_cs (case to sink) needs "
+                                 "heatsink = \"<id>\" on the same component")
+            continue
+        if not isinstance(sid, str) or sid not in design.heatsinks:
+            known = ", ".join(design.heatsinks) or "none declared"
+            raise InputError(path, f"{key}.heatsink", f"unknown heatsink {shorten(sid)}; "
+                             f"[[heatsinks]] ids: {known}")
+        if comp.part.kind not in ("mosfet", "diode"):
+            raise InputError(path, f"{key}.heatsink", "only MOSFETs and diodes (junction, "
+                             "case, sink) are mounted on a heatsink in this version")
+        for other in ("r_th_ca", "r_th_ja"):
+            if other in entry:
+                raise InputError(path, f"{key}.{other}", f"give heatsink with r_th_cs, or "
+                                 f"{other}, not both")
+        if "r_th_cs" not in entry:
+            raise InputError(path, f"{key}.r_th_cs", "missing key: case to sink thermal "
+                             "resistance per device (e.g. \"0.5 K/W\") for a component "
+                             "on a heatsink")
+        value = parse_quantity(entry["r_th_cs"], "thermal_resistance", path, f"{key}.r_th_cs")
+        if value < 0:
+            raise InputError(path, f"{key}.r_th_cs", "must not be negative")
+        comp.heatsink, comp.r_th_cs = sid, value

@@ -20,6 +20,7 @@ from .corners import CornerSet, build_corners
 from .devices import DeviceModel, StageParts, Temperature, build_devices
 from .errors import RegulationError
 from .evaluation import Evaluation, Stress
+from .thermal import network_temperatures
 from .topologies import (Stage, StageResult, duty_limit_reason, evaluate,
                          topology_duty_limit)
 
@@ -53,28 +54,44 @@ def run(design, corners: CornerSet | None = None) -> Evaluation:
     corners = corners if corners is not None else build_corners(design)
     devices = build_devices(design, corners)
     notes = [note for device in devices for note in device.notes()]
-    t, runaway = solve_temperatures(design, corners, devices)
+    t, runaway, unsettled = solve_temperatures(design, corners, devices)
+    # corners where a loop ran away or did not settle: not a solution (checks.py reports
+    # their rows not computed, a runaway t_j as the fail it is)
+    unsolved = {key: runaway[key] | unsettled[key] for key in runaway}
     stage = build_stage(design, corners, devices, t)
     result = evaluate(stage)
     _check_model(design, corners, result, stage,
                  skip=np.logical_or.reduce([np.zeros(corners.size, bool),
-                                            *runaway.values()]))
+                                            *unsolved.values()]))
     notes.extend({"level": "assumption", "text": text} for text in result.notes)
-    stresses, losses, p_loss = derive(devices, corners, result, t, runaway)
+    context = devices[0].context if devices else None
+    if context is not None:
+        notes.extend({"level": "assumption", "text": text}
+                     for text in context.extra(result).zvs_notes)
+    out = derive(devices, corners, result, t, runaway, unsettled)
+    stresses, losses, p_loss, driver, p_extra = out
     if result.clamp_loss is not None:  # a clamp the converter model feeds back
         p_loss = p_loss + result.clamp_loss
     if any(r.any() for r in runaway.values()):
         notes.append({"level": "warning", "text": "thermal runaway: the electro-thermal "
                       "loop (R_DS(on) rising with T_j) does not converge at some corners"})
-    p_in = corners["input_voltage"] * result.input_current
+    if any(u.any() for u in unsettled.values()):
+        notes.append({"level": "warning", "text": "the electro-thermal loop did not settle "
+                      "at some corners: the losses and temperatures of the devices in it "
+                      "are not computed there"})
+    # losses the model's waveforms do not carry (switching, recovery, core, copper above
+    # its sheet temperature) are drawn from the input on top of its input current
+    p_in = corners["input_voltage"] * result.input_current + p_extra
     p_out = corners["output_voltage"] * corners["output_current"]
     spike_notes, clamps = spikes.apply(design, corners, stage, result, stresses, devices,
                                        p_in)
     notes.extend({"level": "assumption", "text": text} for text in spike_notes)
     ratings.apply(stresses, corners, notes)
     measured.apply(getattr(design, "measured", ()), stresses)
-    return Evaluation(design, corners, result, stage, stresses, {k: t[k] for k in runaway},
-                      runaway, p_in, p_out, p_loss, notes, losses, clamps)
+    ev = Evaluation(design, corners, result, stage, stresses, {k: t[k] for k in runaway},
+                    unsolved, p_in, p_out, p_loss, notes, losses, clamps)
+    ev.driver_losses, ev.p_extra = driver, p_extra
+    return ev
 
 
 def build_stage(design, corners: CornerSet, devices: list[DeviceModel],
@@ -118,9 +135,10 @@ def build_stage(design, corners: CornerSet, devices: list[DeviceModel],
 def solve_temperatures(design, corners: CornerSet, devices: list[DeviceModel]):
     """The electro-thermal loop: fixed point of temperature -> parameters -> losses.
 
-    Only devices with ``thermal_feedback`` (losses that depend on their temperature) and
-    a thermal path are iterated; the others keep their start temperature here and get
-    theirs from their final losses in ``derive``.
+    Devices with ``thermal_feedback`` (losses that depend on their temperature) or on a
+    shared heatsink (coupled through the sink temperature) and with a thermal path are
+    iterated; the others keep their start temperature here and get theirs from their
+    final losses in ``derive``.
 
     Parameters
     ----------
@@ -132,64 +150,76 @@ def solve_temperatures(design, corners: CornerSet, devices: list[DeviceModel]):
     t : dict
         Position key -> temperature [degC], (N,), of every device.
     runaway : dict
-        Position key -> (N,) bool, for the devices with thermal feedback: corners where
-        the loop runs away (beyond 1000 degC), or every corner when it does not converge
-        within 200 passes.
+        Position key -> (N,) bool, for the iterated devices: corners where the loop runs
+        away (beyond 1000 degC).
+    unsettled : dict
+        Position key -> (N,) bool: corners where the loop neither settled within 200
+        passes nor ran away (their losses and temperatures are not computed).
     """
     t_a = corners["ambient_temperature"]
-    looped = [d for d in devices if d.thermal_feedback]
+    looped = [d for d in devices if d.thermal_feedback or d.heatsink is not None]
     heated = [d for d in looped if d.r_th is not None]
     t = {d.key: d.start_temperature(t_a) for d in devices}
     runaway = {d.key: np.zeros(corners.size, bool) for d in looped}
-    converged = not looped
-    for _ in range(THERMAL_MAX_ITER if looped else 0):
+    moving = {d.key: np.zeros(corners.size, bool) for d in looped}
+    for _ in range(THERMAL_MAX_ITER if heated else 0):
         result = evaluate(build_stage(design, corners, devices, t))
-        t_new = _temperature_step(heated, result, t, t_a)
+        t_new = _temperature_step(heated, result, t, t_a, design.heatsinks)
         moved = 0.0
         for key, t_key in t_new.items():
             runaway[key] |= ~np.isfinite(t_key) | (t_key > RUNAWAY_T)
             t_key = np.where(runaway[key], RUNAWAY_T, t_key)
-            moved = max(moved, float(np.max(np.abs(t_key - t[key]))))
+            step = np.abs(t_key - t[key])
+            moving[key] = step >= THERMAL_TOL
+            moved = max(moved, float(np.max(step)))
             t[key] = t_key
         if moved < THERMAL_TOL:
-            converged = True
             break
-    if not converged:
-        for key in runaway:
-            runaway[key] |= True  # no convergence: every corner counts as runaway
-    return t, runaway
+    unsettled = {key: moving[key] & ~runaway[key] for key in moving}
+    return t, runaway, unsettled
 
 
 def _temperature_step(devices: list[DeviceModel], result: StageResult,
-                      t: dict[Key, np.ndarray], t_a: np.ndarray) -> dict[Key, np.ndarray]:
+                      t: dict[Key, np.ndarray], t_a: np.ndarray,
+                      sinks: dict) -> dict[Key, np.ndarray]:
     """One pass of the loop: each device's temperature [degC] from its losses at ``t``."""
     p = {d.key: d.total(d.losses(result, t[d.key])) for d in devices}
     return {key: temperature.values
-            for key, temperature in thermal_network(devices, p, t_a).items()}
+            for key, temperature in thermal_network(devices, p, t_a, sinks).items()}
 
 
 def thermal_network(devices: list[DeviceModel], p: dict[Key, np.ndarray],
-                    t_a: np.ndarray) -> dict[Key, Temperature]:
+                    t_a: np.ndarray, sinks: dict | None = None) -> dict[Key, Temperature]:
     """Temperatures of ``devices`` from their dissipations: the one place where devices
-    meet thermally. Each device reaches ambient through its own path today
-    (T = T_a + P·R_th, ``DeviceModel.temperature``); devices that share a heatsink would
-    be coupled here, from the summed losses of every device on it.
+    meet thermally. A device on no heatsink reaches ambient through its own path
+    (T = T_a + P·R_th, ``DeviceModel.temperature``); devices on a shared heatsink sit
+    at T_s + P·(R_jc + R_cs) with the sink at T_s = T_a + R_sa·ΣP over every device on it
+    (``thermal.network_temperatures``).
 
     Parameters
     ----------
     devices : list of DeviceModel
-        The devices whose temperatures are wanted.
+        The devices whose temperatures are wanted (every device on a sink included).
     p : dict
         Position key -> dissipation of one device [W], (N,), of at least ``devices``.
     t_a : ndarray
         Ambient temperature [degC], (N,).
+    sinks : dict, optional
+        Heatsink id -> sink to ambient thermal resistance [K/W].
 
     Returns
     -------
     dict
         Position key -> Temperature [degC], (N,).
     """
-    return {d.key: d.temperature(p[d.key], t_a) for d in devices}
+    mounted = [d for d in devices if d.heatsink is not None and d.r_th is not None]
+    out = {d.key: d.temperature(p[d.key], t_a) for d in devices if d not in mounted}
+    if mounted:
+        paths = {d.key: (d.r_th, d.heatsink, d.devices) for d in mounted}
+        temps, _ = network_temperatures(t_a, {d.key: p[d.key] for d in mounted}, paths,
+                                        sinks or {})
+        out.update({key: Temperature(values) for key, values in temps.items()})
+    return out
 
 
 def _check_model(design, corners, result: StageResult, stage: Stage, skip=None):
@@ -234,7 +264,8 @@ def _first_corner(corners, mask, score=None) -> int:
 
 
 def derive(devices: list[DeviceModel], corners: CornerSet, result: StageResult,
-           t: dict[Key, np.ndarray], runaway: dict[Key, np.ndarray]):
+           t: dict[Key, np.ndarray], runaway: dict[Key, np.ndarray],
+           unsettled: dict[Key, np.ndarray] | None = None):
     """Every quantity of every ref [SI] from the solved model, with the losses.
 
     Parameters
@@ -245,7 +276,7 @@ def derive(devices: list[DeviceModel], corners: CornerSet, result: StageResult,
         The corners, (N,) columns.
     result : StageResult
         The model's waveforms at the solved temperatures.
-    t, runaway : dict
+    t, runaway, unsettled : dict
         As returned by ``solve_temperatures``.
 
     Returns
@@ -255,32 +286,70 @@ def derive(devices: list[DeviceModel], corners: CornerSet, result: StageResult,
         Ref -> loss term -> dissipation of one device [W], (N,).
     p_loss : ndarray
         Sum of every computed loss of the design [W], (N,).
+    driver : dict
+        Ref -> term -> power of one device dissipated in its driver [W], (N,).
+    p_extra : ndarray
+        The part of ``p_loss`` the converter model's waveforms do not carry [W], (N,).
     """
+    unsettled = unsettled or {}
     t_a = corners["ambient_temperature"]
     every = np.ones(corners.size, bool)
     steady = corners.steady_mask()
     stresses: list[Stress] = []
     losses_by_ref: dict[str, dict[str, np.ndarray]] = {}
-    p_loss = np.zeros(corners.size)
+    p_loss, p_extra = np.zeros(corners.size), np.zeros(corners.size)
+    driver_by_ref: dict[str, dict[str, np.ndarray]] = {}
+    t = dict(t)
+    for d in devices:
+        if d.self_heating and not d.thermal_feedback and d.heatsink is None \
+                and d.r_th is not None:
+            t[d.key] = _self_heating(d, result, t_a)
     losses = {d.key: d.losses(result, t[d.key]) for d in devices}
     p = {d.key: d.total(losses[d.key]) for d in devices}
-    temperatures = thermal_network([d for d in devices if not d.thermal_feedback], p, t_a)
+    temperatures = thermal_network([d for d in devices if not d.thermal_feedback
+                                    and d.heatsink is None], p, t_a)
     for device in devices:
         key = device.key
         if losses[key]:
             p_loss += device.position_loss(p[key])
-        if not device.thermal_feedback:
+            p_extra += device.position_loss(device.outside_model(result, losses[key]))
+        if key in temperatures:
             temperature = temperatures[key]
         elif device.r_th is None:
             temperature = Temperature(np.full(corners.size, np.nan), device.no_path_reason)
         else:  # the loop's own solution
             temperature = Temperature(np.where(runaway[key], np.inf, t[key]))
         rows = device.stresses(result, losses[key], temperature) + device.model_rows(result)
+        driver = device.driver_losses(result)
+        loose = unsettled.get(key)
         for ref in device.refs:
             losses_by_ref[ref] = losses[key]
+            if driver:
+                driver_by_ref[ref] = driver
             for row in rows:
-                voltage = schema.QUANTITIES[row.quantity].family == "voltage"
-                stresses.append(Stress(ref, device.component, row.quantity,
-                                       np.asarray(row.values, dtype=float),
-                                       every if voltage else steady, row.reason))
-    return stresses, losses_by_ref, p_loss
+                family = schema.QUANTITIES[row.quantity].family
+                values, reason = np.asarray(row.values, dtype=float), row.reason
+                if loose is not None and loose.any() and family == "thermal":
+                    values = np.where(loose, np.nan, values)
+                    reason = reason or "the electro-thermal loop did not settle"
+                stresses.append(Stress(ref, device.component, row.quantity, values,
+                                       steady if family != "voltage" else every, reason,
+                                       row.note, row.ratings))
+    return stresses, losses_by_ref, p_loss, driver_by_ref, p_extra
+
+
+def _self_heating(device: DeviceModel, result: StageResult, t_a: np.ndarray) -> np.ndarray:
+    """Temperature [degC], (N,), of a device whose loss rises with its own temperature
+    but does not change the converter model: the fixed point of T = T_a + R_th·P(T),
+    +inf where it runs away (beyond 1000 degC) or does not settle."""
+    t = device.start_temperature(t_a)
+    moved = np.full(t.shape, np.inf)
+    for _ in range(THERMAL_MAX_ITER):
+        t_new = device.temperature(device.total(device.losses(result, t)), t_a).values
+        t_new = np.where(np.isfinite(t_new) & (t_new <= RUNAWAY_T), t_new, np.inf)
+        with np.errstate(invalid="ignore"):
+            moved = np.where(np.isinf(t_new), 0.0, np.abs(t_new - t))
+        t = t_new
+        if np.all(moved < THERMAL_TOL):
+            break
+    return np.where(moved < THERMAL_TOL, t, np.inf)

@@ -33,6 +33,10 @@ class Stress:
     basis: str = "computed"  # "measured" where a [[measured]] entry applies
     measured: dict | None = None  # {value, instrument, probe_point, date, mode}
     rating_temperature: np.ndarray | None = None
+    note: str = ""  # what a computed value includes or leaves out
+    # ratings that hold at each corner (rating key -> (N,) [SI]), e.g. a current rating
+    # derated with the case temperature; they replace the sheet's in the checks
+    ratings: dict = field(default_factory=dict)
 
 
 @dataclass
@@ -56,3 +60,8 @@ class Evaluation:
     losses: dict[str, dict[str, np.ndarray]] = field(default_factory=dict)
     # worst figures of each modelled leakage clamp (spikes.apply), for results.json
     clamps: list[dict] = field(default_factory=list)
+    # power of one device's gate drive, dissipated in its driver: ref -> term -> (N,) [W]
+    driver_losses: dict[str, dict[str, np.ndarray]] = field(default_factory=dict)
+    # losses the converter model's waveforms do not carry (switching, recovery, core,
+    # copper above its sheet temperature), drawn from the input in p_in [W], (N,)
+    p_extra: np.ndarray | None = None

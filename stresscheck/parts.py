@@ -172,6 +172,13 @@ def _check_consistency(part: Part) -> None:
         if "r_ds_on_hot_temperature" in e and e["r_ds_on_hot_temperature"] <= 25.0:
             raise InputError(path, "electrical.r_ds_on_hot_temperature",
                              "must be above 25 degC (r_ds_on is the 25 degC value)")
+    if part.kind == "mosfet":
+        for key in ("e_oss", "q_oss"):
+            if key in e and "oss_voltage" not in e:
+                raise InputError(path, f"electrical.{key}", f"{key} needs oss_voltage (the "
+                                 "drain-source voltage at which the sheet states it)")
+    if part.kind in ("inductor", "transformer"):
+        _check_core_loss(part)
     if part.kind == "diode" and "v_f0" not in e:
         raise InputError(path, "electrical.v_f0", "a diode needs v_f0 (forward drop at "
                          "zero current of its straight-line model)")
@@ -194,6 +201,30 @@ def _check_consistency(part: Part) -> None:
         for key in ("primary_turns", "secondary_turns"):
             if key not in e:
                 raise InputError(path, f"electrical.{key}", "a transformer needs turns")
+
+
+def _check_core_loss(part: Part) -> None:
+    """Steinmetz keys come as a set: k or a loss density at a stated flux and frequency,
+    with both exponents and the core volume."""
+    e, path = part.electrical, part.path
+    point = ("core_loss_density", "core_loss_flux", "core_loss_frequency")
+    given = [k for k in point if k in e]
+    if given and len(given) < 3:
+        missing = [k for k in point if k not in e][0]
+        raise InputError(path, f"electrical.{missing}", "core_loss_density, core_loss_flux "
+                         "and core_loss_frequency go together")
+    if "steinmetz_k" in e and given:
+        raise InputError(path, "electrical.steinmetz_k", "give steinmetz_k or "
+                         "core_loss_density (with its flux and frequency), not both")
+    if "steinmetz_k" in e or given:
+        for key in ("steinmetz_alpha", "steinmetz_beta", "core_volume"):
+            if key not in e:
+                raise InputError(path, f"electrical.{key}", "core-loss coefficients need "
+                                 "steinmetz_alpha, steinmetz_beta and core_volume")
+    if part.kind == "inductor" and ("turns" in e) != ("core_area" in e):
+        raise InputError(path, "electrical.turns" if "turns" not in e else
+                         "electrical.core_area", "turns and core_area go together (the "
+                         "flux swing of an inductor is L·ΔI/(N·A_e))")
 
 
 def shipped_library() -> Path:

@@ -10,6 +10,8 @@ import hashlib
 import os
 from pathlib import Path
 
+import numpy as np
+
 from . import __version__, schema
 from .checks import ROLE_ORDER, summarise, uncovered
 from .parts import shipped_library
@@ -18,17 +20,33 @@ from .sweeps import input_sweeps
 from .texts import CAUTIONS
 
 LOSSES_INCLUDED = (
-    "MOSFET conduction: R_DS(on) at the solved junction temperature × I_rms²",
-    "diode forward conduction: v_f0·I_avg + r_d·I_rms²",
-    "capacitor ESR: ESR × I_rms² (ESR as given on the part sheet)",
-    "inductor DCR: DCR × I_rms² (DCR as given, no temperature rise of copper)",
-    "transformer winding copper loss: R × I_rms² per winding",
+    "MOSFET conduction: R_DS(on) at the solved junction temperature × I_rms² (term "
+    "'conduction', body diode included)",
+    "diode forward conduction: v_f0·I_avg + r_d·I_rms² ('conduction')",
+    "MOSFET hard-switching overlap: ½·V_off·(I_on·t_rise + I_off·t_fall)·f_s with the "
+    "sheet's t_rise, t_fall and the device current at each transition ('overlap')",
+    "MOSFET output capacitance at hard turn-on: E_oss(V_off)·f_s from e_oss, c_oss "
+    "(energy equivalent) or q_oss ('c_oss'); phase-shifted bridge: the residual energy "
+    "where the inductive energy does not reach 2·E_oss(V_in)",
+    "recovery charge and capacitance of the diode a switch commutates, in that switch: "
+    "(Q_rr·V_R + ½·C_j·V_R²)·f_s ('commutation')",
+    "diode reverse recovery in the diode: ¼·Q_rr·V_R·f_s ('recovery')",
+    "capacitor ESR: ESR × I_rms² ('esr', ESR as given on the part sheet)",
+    "inductor and transformer copper: R × I_rms² with the resistance at the solved hot "
+    "spot, copper 0.393 %/K ('copper')",
+    "core loss of inductors and transformers: improved generalised Steinmetz equation "
+    "on the flux waveform, from the sheet's coefficients and core volume ('core')",
+    "gate drive Q_g·V_gs·f_s: reported per MOSFET in driver_losses (dissipated in the "
+    "driver, not in the switch)",
 )
 LOSSES_NOT_INCLUDED = (
-    "switching (overlap), C_oss, gate-drive and reverse-recovery losses",
-    "core losses of transformer and inductor",
     "leakage-inductance energy (clamp or snubber loss; a modelled clamp's power is "
     "reported under 'clamps' and in the notes, not in these losses)",
+    "capacitive snubbing of turn-off by C_oss (the turn-off overlap is counted in full)",
+    "valley switching and a bridge leg's resting voltage: transitions are taken at the "
+    "peak blocking voltage",
+    "recovery of a diode whose current falls to zero through an inductance before the "
+    "switch turns on (discontinuous conduction, leakage-limited commutation)",
 )
 CONVENTIONS = (
     "ratio = stress / allowed (percent of allowed); marginal above the policy's "
@@ -81,6 +99,7 @@ def build_results(evaluation, checks, policy) -> dict:
     regimes: dict[str, list[str]] = {}
     for row in corner_rows:
         regimes.setdefault(row["regime"], []).append(row["id"])
+    losses = _losses_at_governing(evaluation, checks)
     doc = {
         "schema": schema.RESULTS_SCHEMA,
         "design": design.name,
@@ -91,6 +110,9 @@ def build_results(evaluation, checks, policy) -> dict:
         "converter": {"topology": design.topology, "rectifier": design.rectifier,
                       "modulation": design.modulation},
         "inputs": inputs,
+        "losses": {ref: terms for ref, (_, terms) in losses.items()},
+        "losses_corners": {ref: corner for ref, (corner, _) in losses.items()},
+        "driver_losses": _driver_losses(evaluation, checks),
         "losses_included": list(LOSSES_INCLUDED),
         "losses_not_included": list(LOSSES_NOT_INCLUDED),
         "conventions": list(CONVENTIONS),
@@ -139,6 +161,48 @@ def _part_input(pid, part, design_dir) -> dict:
     if part.shadowed:
         entry["shadowed"] = [sheet_path(p, design_dir) for p in part.shadowed]
     return entry
+
+
+THERMAL_QUANTITIES = ("t_j", "t_hotspot", "p_loss")
+
+
+def _governing_index(evaluation, checks, ref):
+    """Corner index of a ref's governing thermal corner: that of its temperature check
+    (else its loss row); the corner of the highest total loss if none has a corner."""
+    ids = {cid: i for i, cid in enumerate(evaluation.corners.ids)}
+    for quantity in THERMAL_QUANTITIES:
+        for c in checks:
+            if c.ref == ref and c.quantity == quantity and c.corner in ids:
+                return ids[c.corner]
+    return None
+
+
+def _terms_at(terms: dict, i) -> dict:
+    return {name: (float(v[i]) if np.isfinite(v[i]) else None)
+            for name, v in terms.items()}
+
+
+def _losses_at_governing(evaluation, checks) -> dict:
+    """ref -> (corner id, {term: W}) at the ref's governing thermal corner, per device."""
+    out = {}
+    steady = evaluation.corners.steady_mask()
+    for ref, terms in sorted(evaluation.losses.items(), key=lambda kv: _ref_key(kv[0])):
+        i = _governing_index(evaluation, checks, ref)
+        if i is None:
+            total = sum(np.where(np.isfinite(v), v, 0.0) for v in terms.values())
+            i = int(np.argmax(np.where(steady, total, -np.inf)))
+        out[ref] = (evaluation.corners.ids[i], _terms_at(terms, i))
+    return out
+
+
+def _driver_losses(evaluation, checks) -> dict:
+    """ref -> {term: W} of the gate drive, at the same corner as ``losses``."""
+    out = {}
+    for ref, terms in sorted(evaluation.driver_losses.items(),
+                             key=lambda kv: _ref_key(kv[0])):
+        i = _governing_index(evaluation, checks, ref) or 0
+        out[ref] = _terms_at(terms, i)
+    return out
 
 
 def _ref_key(ref: str):

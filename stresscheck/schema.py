@@ -60,24 +60,39 @@ class Key:
     curve: str | None = None  # a table { "<x with unit>" = value } over this dimension
 
 
+# Core and copper loss keys of inductors and transformers (magnetics_loss.py): Steinmetz
+# k (W/m³ with f in Hz and B in T) or a loss density at a stated peak flux and
+# frequency, the exponents, the effective core volume, and the temperature at which the
+# sheet states its winding resistances (default 25 °C).
+CORE_LOSS_KEYS = {"steinmetz_k": Key("count"), "steinmetz_alpha": Key("count"),
+                  "steinmetz_beta": Key("count"), "core_volume": Key("volume"),
+                  "core_loss_density": Key("power_density"),
+                  "core_loss_flux": Key("flux_density"),
+                  "core_loss_frequency": Key("frequency"),
+                  "resistance_temperature": Key("temperature")}
+
 # Part sheet keys: kind -> section -> key -> Key
 PART_KEYS: dict[str, dict[str, dict[str, Key]]] = {
     "mosfet": {
         "ratings": {"v_ds": Key("voltage"), "v_gs": Key("voltage"), "i_d": Key("current"),
                     "i_dm": Key("current"), "t_j_max": Key("temperature"),
-                    "p_d": Key("power"), "v_ds_tc": Key("per_kelvin")},
+                    "p_d": Key("power"), "v_ds_tc": Key("per_kelvin"),
+                    "i_d_temperature": Key("temperature")},
         "electrical": {"r_ds_on": Key("resistance"), "r_ds_on_tc": Key("per_kelvin"),
                        "r_ds_on_hot": Key("resistance"),
                        "r_ds_on_hot_temperature": Key("temperature"),
                        "q_g": Key("charge"), "c_oss": Key("capacitance"),
                        "t_rise": Key("time"), "t_fall": Key("time"),
-                       "v_sd": Key("voltage"), "r_sd": Key("resistance")},
+                       "v_sd": Key("voltage"), "r_sd": Key("resistance"),
+                       "e_oss": Key("energy"), "q_oss": Key("charge"),
+                       "oss_voltage": Key("voltage"), "q_rr": Key("charge")},
         "thermal": {"r_th_jc": Key("thermal_resistance")},
     },
     "diode": {
         "ratings": {"v_rrm": Key("voltage"), "i_f_avg": Key("current"),
                     "i_fsm": Key("current"), "t_j_max": Key("temperature"),
-                    "v_rrm_tc": Key("per_kelvin")},
+                    "v_rrm_tc": Key("per_kelvin"),
+                    "i_f_avg_temperature": Key("temperature")},
         "electrical": {"v_f0": Key("voltage"), "r_d": Key("resistance"),
                        "q_rr": Key("charge"), "c_j": Key("capacitance")},
         "thermal": {"r_th_jc": Key("thermal_resistance")},
@@ -99,7 +114,8 @@ PART_KEYS: dict[str, dict[str, dict[str, Key]]] = {
                     "t_max": Key("temperature"), "i_sat_hot": Key("current"),
                     "i_sat_hot_temperature": Key("temperature")},
         "electrical": {"inductance": Key("inductance", spread=True),
-                       "dcr": Key("resistance")},
+                       "dcr": Key("resistance"), "turns": Key("count"),
+                       "core_area": Key("area"), **CORE_LOSS_KEYS},
         "thermal": {"r_th": Key("thermal_resistance")},
     },
     "transformer": {
@@ -109,7 +125,7 @@ PART_KEYS: dict[str, dict[str, dict[str, Key]]] = {
                        "magnetizing_inductance": Key("inductance", spread=True),
                        "leakage_inductance": Key("inductance"), "core_area": Key("area"),
                        "r_primary": Key("resistance"), "r_secondary": Key("resistance"),
-                       "r_reset": Key("resistance")},
+                       "r_reset": Key("resistance"), **CORE_LOSS_KEYS},
         "thermal": {"r_th": Key("thermal_resistance")},
     },
 }
@@ -119,7 +135,9 @@ POSITIVE_KEYS = {"r_ds_on", "r_ds_on_hot", "capacitance", "inductance", "primary
                  "secondary_turns", "reset_turns", "magnetizing_inductance", "core_area",
                  "v_ds", "v_gs", "i_d", "i_dm", "v_rrm", "i_f_avg", "i_fsm", "v_rated",
                  "i_ripple", "ripple_frequency", "i_sat", "i_rms", "b_sat", "life", "p_d",
-                 "r_th_jc", "r_th"}
+                 "r_th_jc", "r_th", "e_oss", "q_oss", "oss_voltage", "steinmetz_k",
+                 "steinmetz_alpha", "steinmetz_beta", "core_volume", "core_loss_density",
+                 "core_loss_flux", "core_loss_frequency", "turns"}
 
 
 @dataclass(frozen=True)

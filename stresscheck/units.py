@@ -64,6 +64,8 @@ DIMENSIONS: dict[str, tuple[str, str]] = {
     "per_kelvin": ("1 / kelvin", "1/K"),
     "flux_density": ("tesla", "T"),
     "area": ("meter ** 2", "m^2"),
+    "volume": ("meter ** 3", "m^3"),
+    "power_density": ("watt / meter ** 3", "W/m^3"),
     "fraction": ("dimensionless", "1"),
     "count": ("dimensionless", "1"),
 }
@@ -195,6 +197,7 @@ _EXAMPLES = {
     "charge": "30 nC", "energy": "10 uJ", "temperature": "75 degC",
     "temperature_difference": "25 K", "thermal_resistance": "3 K/W", "per_kelvin": "0.5 %/K",
     "flux_density": "300 mT", "area": "80 mm^2", "fraction": "20 %", "count": "2",
+    "volume": "17.8 cm^3", "power_density": "200 kW/m^3",
 }
 
 

@@ -315,12 +315,19 @@ def test_rows_from_an_unconverged_electro_thermal_loop_are_not_computed(tmp_path
     for ref in ("Q1", "Q2", "Q3", "Q4"):
         assert rows[(ref, "t_j")]["status"] == "fail"
         assert "thermal runaway" in rows[(ref, "t_j")]["note"]
-        for q in ("i_rms", "p_loss", "i_peak", "v_peak"):
+        for q in ("p_loss", "i_peak", "v_peak"):
             row = rows[(ref, q)]
             assert row["status"] == "not-computed", row
             assert row["stress"] is None and row["ratio"] is None
             assert f"thermal runaway of Q1, Q2, Q3, Q4" in row["note"]
             assert kinds[row["corner"]] == "overload"  # the runaway is at the limit
+        # i_d derated with the case temperature (linear to zero at T_j,max, common
+        # practice): where the loop converged with the case above T_j,max the rating is
+        # zero, so the row fails on converged corners already (a fail stays a fail)
+        row = rows[(ref, "i_rms")]
+        assert row["status"] == "fail" and row["allowed"] == 0.0, row
+        assert "derated" in row["note"] and "thermal runaway" in row["note"]
+        assert kinds[row["corner"]] != "overload"
     for ref in ("D1", "D2"):  # fails where the loop converged: stays a fail
         row = rows[(ref, "v_reverse_peak")]
         assert row["status"] == "fail" and row["ratio"] > 1
@@ -343,7 +350,12 @@ def test_runaway_switch_has_no_passing_current_or_loss_row(tmp_path):
     doc = json.loads((tmp_path / "out" / "results.json").read_text(encoding="utf-8"))
     rows = {(c["ref"], c["quantity"]): c for c in doc["checks"]}
     assert rows[("Q1", "t_j")]["status"] == "fail"
-    for q in ("i_rms", "p_loss"):
-        assert rows[("Q1", q)]["status"] == "not-computed"
-        assert "thermal runaway of Q1" in rows[("Q1", q)]["note"]
+    assert rows[("Q1", "p_loss")]["status"] == "not-computed"
+    assert "thermal runaway of Q1" in rows[("Q1", "p_loss")]["note"]
+    # i_d derated with the case temperature: zero where the converged case is above
+    # T_j,max, so i_rms already fails on converged corners (never a pass)
+    i_rms = rows[("Q1", "i_rms")]
+    assert i_rms["status"] == "not-computed" or (i_rms["status"] == "fail"
+                                                  and "derated" in i_rms["note"])
+    assert "thermal runaway of Q1" in i_rms["note"]
     assert doc["summary"]["pass"] == 0 and doc["summary"]["info"] == 0

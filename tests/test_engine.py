@@ -110,9 +110,19 @@ def test_loss_terms_add_up(tmp_path):
 
 
 def test_passive_hot_spot_from_its_own_loss(tmp_path):
-    """A part outside the loop (no thermal feedback) takes T = T_a + P·R_th from its
-    final loss: the inductor's DCR loss with the sheet's R_th of 20 K/W."""
+    """The inductor's hot spot with its copper loss at that temperature: it takes part in
+    the loop (the DCR rises 0.393 %/K, IEC 60028), so T = T_a + R_th·P at the fixed point
+    (to the loop's 1 mK), and T equals the closed form of the linear equation
+    T = T_a + R_th·P_25·(1 + a·(T − 25 °C)), a = 0.00393/(1 + 0.00393·5 K):
+    T = (T_a + R_th·P_25·(1 − 25 °C·a))/(1 − R_th·P_25·a), with the sheet's R_th of
+    20 K/W and P_25 = DCR·I_rms² (the sheet's DCR taken at 25 °C)."""
     ev = buck(tmp_path)
     p = ev.losses["L1"]["copper"]
-    np.testing.assert_allclose(stress(ev, "L1", "t_hotspot").values,
-                               ev.corners["ambient_temperature"] + 20.0 * p, rtol=1e-12)
+    t_a = ev.corners["ambient_temperature"]
+    t = stress(ev, "L1", "t_hotspot").values
+    np.testing.assert_allclose(t, t_a + 20.0 * p, atol=2e-3)
+    dcr = ev.design.by_role("inductor")[0].part.electrical["dcr"]
+    p25 = dcr * ev.result.currents[("inductor", 0)].rms() ** 2
+    a = 0.00393 / (1 + 0.00393 * 5.0)
+    closed = (t_a + 20.0 * p25 * (1 - 25.0 * a)) / (1 - 20.0 * p25 * a)
+    np.testing.assert_allclose(t, closed, atol=2e-3)

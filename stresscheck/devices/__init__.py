@@ -10,6 +10,7 @@ its module here, one line in ``KINDS``, its tests (DEVELOPERS.md, "Adding a devi
 
 from __future__ import annotations
 
+from ..loss_model import LossContext
 from ..topologies import layout_for
 from .base import DeviceModel, Losses, Position, Row, StageParts, Temperature, total_loss
 from .capacitor import Capacitor
@@ -68,4 +69,9 @@ def build_devices(design, corners) -> list[DeviceModel]:
     -------
     list of DeviceModel
     """
-    return [KINDS[pos.component.part.kind](pos, corners) for pos in positions(design)]
+    places = positions(design)
+    context = LossContext(design, places, corners)
+    devices = [KINDS[pos.component.part.kind](pos, corners, context) for pos in places]
+    for device in devices:
+        device.share(context)
+    return devices

@@ -20,6 +20,9 @@ from ..topologies import CapacitorBank, Device, Inductor, Magnetics, StageResult
 Losses = dict[str, np.ndarray]
 """Loss terms of one device: term name -> (N,) power [W] dissipated in that device."""
 
+# Terms that the converter model's waveforms do not carry (``loss_model``).
+OUTSIDE_MODEL_TERMS = ("overlap", "c_oss", "commutation", "recovery", "core")
+
 
 @dataclass
 class Position:
@@ -55,6 +58,8 @@ class Row:
     quantity: str
     values: np.ndarray
     reason: str = ""
+    note: str = ""  # what a computed value includes or leaves out
+    ratings: dict = field(default_factory=dict)  # rating key -> (N,) at each corner
 
 
 @dataclass
@@ -96,22 +101,33 @@ class DeviceModel:
     - ``kind``: the part kind it models (``schema.KINDS``);
     - ``thermal_feedback``: True when its losses depend on its own temperature, so that it
       takes part in the electro-thermal loop (R_DS(on) rising with T_j);
+    - ``self_heating``: True when its losses depend on its own temperature but what it
+      gives the converter model does not (copper resistance of a winding): its
+      temperature is solved after the loop, on its own;
     - ``no_path_reason``: why its temperature is not computed without a thermal path;
     - ``t_max_key``: the rating key of its temperature limit.
     """
 
     kind: ClassVar[str] = ""
     thermal_feedback: ClassVar[bool] = False
+    self_heating: ClassVar[bool] = False
     no_path_reason: ClassVar[str] = "no r_th given"
     t_max_key: ClassVar[str] = "t_max"
 
-    def __init__(self, position: Position, corners):
+    def __init__(self, position: Position, corners, context=None):
         self.position = position
         self.corners = corners
         self.component = position.component
         self.part = position.component.part
         self.electrical = self.part.electrical
+        self.context = context  # loss_model.LossContext shared by the design's devices
         self.r_th = self.thermal_path()
+
+    @property
+    def heatsink(self) -> str | None:
+        """Id of the design's heatsink the device is mounted on, or None; then
+        ``r_th`` is junction to sink."""
+        return getattr(self.component, "heatsink", None)
 
     @property
     def key(self) -> tuple[str, int]:
@@ -195,7 +211,34 @@ class DeviceModel:
         return [Row(q, np.asarray(v, dtype=float) / self.devices)
                 for q, v in result.shared_rows.get(self.key, {}).items()]
 
+    def outside_model(self, result: StageResult, losses: Losses) -> np.ndarray:
+        """The part of one device's loss the converter model's waveforms do not carry
+        [W], (N,): drawn from the input on top of the model's input current (energy
+        balance). The switching-related and core terms; kinds add their own."""
+        out = np.zeros(self.size)
+        for term in OUTSIDE_MODEL_TERMS:
+            if term in losses:
+                out = out + losses[term]
+        return out
+
+    def loss_note(self, result: StageResult) -> str:
+        """The loss terms left out for want of sheet values, for the rows' note (the
+        switching-related terms of a semiconductor; kinds add their own)."""
+        if self.context is None:
+            return ""
+        sw = self.context.extra(result).switching.get(self.key)
+        return ("left out: " + "; ".join(sw.left_out)) if sw is not None and sw.left_out \
+            else ""
+
+    def driver_losses(self, result: StageResult) -> Losses:
+        """Power of one device dissipated outside it, in its driver [W] (gate drive)."""
+        return {}
+
     # ---------------------------------------------------------------- per kind
+    def share(self, context) -> None:
+        """Offer the shared loss context what this kind knows (the transformer its
+        magnetics); nothing by default."""
+
     def notes(self) -> list[dict]:
         """Warnings about the part sheet (values missing, defaults taken)."""
         return []

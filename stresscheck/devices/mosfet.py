@@ -10,7 +10,7 @@ import numpy as np
 
 from ..topologies import Device, StageResult
 from .base import DeviceModel, Losses, Row, StageParts, Temperature
-from .diode import diode_loss, junction_to_ambient
+from .diode import derated_rating, diode_loss, junction_to_ambient
 
 T_REF = 25.0  # [degC] temperature of the headline R_DS(on)
 BODY_DIODE_VF0 = 0.9  # [V] body-diode v_sd when the part sheet gives none (common practice)
@@ -87,7 +87,8 @@ class Mosfet(DeviceModel):
                         "R_DS(on) temperature dependence; its 25 °C value is used"})
         if self.r_th is None:
             out.append({"level": "warning", "text": f"{ref}: no thermal path (r_th_jc with "
-                        "r_th_ca, or r_th_ja); T_j not computed, R_DS(on) taken at T_j,max"})
+                        "r_th_ca or with heatsink and r_th_cs, or r_th_ja); T_j not "
+                        "computed, R_DS(on) taken at T_j,max"})
         return out
 
     def add_to(self, parts: StageParts, t: np.ndarray) -> None:
@@ -108,7 +109,19 @@ class Mosfet(DeviceModel):
             v_f0, r_d = body_diode(self.part)
             out["body_diode"] = diode_loss(v_f0, r_d, body.mean() / self.devices,
                                            body.rms() / self.devices)
+        if self.context is not None:
+            # ``overlap``, ``c_oss``, ``commutation``: losses.py relations at the
+            # transitions ``switching`` finds in the waveforms
+            out.update(self.context.extra(result).semi_terms(self.key))
         return out
+
+    def driver_losses(self, result: StageResult) -> Losses:
+        """``gate_drive``: Q_g·V_gs·f_s [W] per device (``losses.gate_drive_loss``),
+        dissipated in the driver."""
+        if self.context is None:
+            return {}
+        sw = self.context.extra(result).switching.get(self.key)
+        return {} if sw is None or sw.driver is None else {"gate_drive": sw.driver}
 
     def stresses(self, result: StageResult, losses: Losses,
                  temperature: Temperature) -> list[Row]:
@@ -119,7 +132,10 @@ class Mosfet(DeviceModel):
         if body is not None:
             i_rms, i_peak = np.sqrt(i_rms ** 2 + body.rms() ** 2), np.maximum(i_peak,
                                                                               body.peak())
+        note = self.loss_note(result)
+        rating = derated_rating(self, "i_d", temperature, self.total(losses))
         return [Row("v_peak", result.v_block[self.key]),
-                Row("i_peak", i_peak / self.devices), Row("i_rms", i_rms / self.devices),
-                Row("p_loss", self.total(losses)),
-                Row("t_j", temperature.values, temperature.reason)]
+                Row("i_peak", i_peak / self.devices),
+                Row("i_rms", i_rms / self.devices, ratings=rating),
+                Row("p_loss", self.total(losses), note=note),
+                Row("t_j", temperature.values, temperature.reason, note)]

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from .. import loss_model
 from ..corners import tolerance_column
 from ..topologies import Magnetics, StageResult
 from .base import DeviceModel, Losses, Row, StageParts, Temperature
@@ -20,6 +21,10 @@ class Transformer(DeviceModel):
 
     kind = "transformer"
     no_path_reason = "no r_th on the part sheet"
+    self_heating = True  # copper resistance rises with the hot spot
+
+    def share(self, context) -> None:
+        context.magnetics = self.magnetics
 
     def notes(self) -> list[dict]:
         if "magnetizing_inductance" in self.electrical:
@@ -27,22 +32,54 @@ class Transformer(DeviceModel):
         return [{"level": "warning", "text": f"{self.refs[0]}: no magnetizing_inductance "
                  "on the part sheet; magnetizing current left out of the switch currents"}]
 
-    def add_to(self, parts: StageParts, t: np.ndarray) -> None:
+    def magnetics(self) -> Magnetics:
+        """The converter model's view of the part: turns, L_m per corner, resistances."""
         e = self.electrical
         if "magnetizing_inductance" in e:
             l_m = tolerance_column(self.corners, self.component, "magnetizing_inductance",
                                    self.part.spread("magnetizing_inductance").nom)
         else:
             l_m = np.full(self.size, NO_MAGNETIZING)
-        parts.transformer = Magnetics(e["primary_turns"], e["secondary_turns"], l_m,
-                                      e.get("r_primary", 0.0), e.get("r_secondary", 0.0),
-                                      e.get("core_area"), e.get("reset_turns"),
-                                      e.get("r_reset", 0.0), e.get("leakage_inductance", 0.0))
+        return Magnetics(e["primary_turns"], e["secondary_turns"], l_m,
+                         e.get("r_primary", 0.0), e.get("r_secondary", 0.0),
+                         e.get("core_area"), e.get("reset_turns"), e.get("r_reset", 0.0),
+                         e.get("leakage_inductance", 0.0))
+
+    def add_to(self, parts: StageParts, t: np.ndarray) -> None:
+        # the converter model takes the sheet's resistances; the loss below takes
+        # them at the hot spot
+        parts.transformer = self.magnetics()
+
+    def _core(self, result: StageResult):
+        if self.context.line_cycle:
+            return None, loss_model.LINE_CYCLE_NOTE
+        return loss_model.transformer_core(self.part, self.context.design.topology,
+                                           self.magnetics(), self.corners, result)
 
     def losses(self, result: StageResult, t: np.ndarray) -> Losses:
-        """``copper``: Σ R·I_rms² over the windings [W], as the converter model computes
-        it from each winding's current (no core loss)."""
-        return {"copper": result.winding_loss}
+        """``copper``: Σ R·I_rms² over the windings [W] as the converter model computes
+        it from each winding's current, with the resistances at the hot spot (copper
+        0.393 %/K, ``loss_model.copper_at``); ``core``: the iGSE on the flux pieces of
+        the topology (``flux.transformer_pieces``, ``magnetics_loss.core_loss``) where
+        the sheet gives core-loss coefficients and the core area."""
+        t_cu = t if self.r_th is not None else np.full(self.size, np.nan)
+        out = {"copper": loss_model.copper_at(self.part, t_cu, result.winding_loss)}
+        if self.context is not None:
+            core, _ = self._core(result)
+            if core is not None:
+                out["core"] = np.where(self.context.heating(), core, 0.0) \
+                if self.context is not None else core
+        return out
+
+    def outside_model(self, result: StageResult, losses: Losses) -> np.ndarray:
+        """Core loss and the copper loss above its value at the sheet's resistances."""
+        return super().outside_model(result, losses) + losses["copper"] - result.winding_loss
+
+    def loss_note(self, result: StageResult) -> str:
+        if self.context is None:
+            return ""
+        _, why = self._core(result)
+        return f"left out: core loss ({why})" if why else ""
 
     def position_loss(self, p_device: np.ndarray) -> np.ndarray:
         return p_device  # one device to the model (see the class docstring)
@@ -53,4 +90,5 @@ class Transformer(DeviceModel):
             b_peak = Row("b_peak", np.full(self.size, np.nan), "no core_area on the part sheet")
         else:
             b_peak = Row("b_peak", result.b_peak)
-        return [b_peak, Row("t_hotspot", temperature.values, temperature.reason)]
+        return [b_peak, Row("t_hotspot", temperature.values, temperature.reason,
+                            self.loss_note(result))]
