@@ -334,7 +334,7 @@ def derive(devices: list[DeviceModel], corners: CornerSet, result: StageResult,
                     reason = reason or "the electro-thermal loop did not settle"
                 stresses.append(Stress(ref, device.component, row.quantity, values,
                                        steady if family != "voltage" else every, reason,
-                                       row.note, row.ratings))
+                                       note=row.note, ratings=row.ratings))
     return stresses, losses_by_ref, p_loss, driver_by_ref, p_extra
 
 

@@ -33,7 +33,6 @@ class Stress:
     basis: str = "computed"  # "measured" where a [[measured]] entry applies
     measured: dict | None = None  # {value, instrument, probe_point, date, mode}
     rating_temperature: np.ndarray | None = None
-    note: str = ""  # what a computed value includes or leaves out
     # ratings that hold at each corner (rating key -> (N,) [SI]), e.g. a current rating
     # derated with the case temperature; they replace the sheet's in the checks
     ratings: dict = field(default_factory=dict)
