@@ -54,6 +54,10 @@ def test_bom_drives_a_check_and_lists_unmatched_refs(tmp_path, capsys):
     assert {c["part"] for c in d1} == {"schottky-150v-20a"}
     # the 150 V rectifier clears the demo's deliberate reverse-voltage failure
     assert status == 0 and doc["summary"]["fail"] == 0
+    # the report lists the substitutions and the refs the BOM and design do not share
+    html = (tmp_path / "out" / "report.html").read_text(encoding="utf-8")
+    assert "Parts substituted for this run" in html and "schottky-150v-20a" in html
+    assert "In the BOM but not in the design: C99" in html
 
 
 def test_bom_from_xlsx_with_named_columns(tmp_path):

@@ -77,6 +77,24 @@ def _regimes(results: dict) -> list[dict]:
              "corners": ", ".join(str(x) for x in (v or ()))} for k, v in regimes.items()]
 
 
+def _substitutions(results: dict) -> dict | None:
+    """Parts replaced by a BOM or --swap, and the refs a BOM and the design do not share
+    (CONTRACT.md, "BOM workflows"); None when the run made no substitution."""
+    changes = results.get("substitutions")
+    bom = results.get("bom") if isinstance(results.get("bom"), dict) else None
+    if changes is None and bom is None:
+        return None
+    rows = [{"ref": _text(c.get("ref")), "before": _text(c.get("before")),
+             "after": _text(c.get("after")), "source": _text(c.get("source"))}
+            for c in changes or () if isinstance(c, dict)]
+    out = {"changes": rows, "bom": None}
+    if bom is not None:
+        out["bom"] = {"name": _text(bom.get("name")),
+                      "not_in_design": ", ".join(str(r) for r in bom.get("not_in_design") or ()),
+                      "not_in_bom": ", ".join(str(r) for r in bom.get("not_in_bom") or ())}
+    return out
+
+
 def blocks(results: dict, context: dict) -> dict:
     """Template variables of the added blocks.
 
@@ -110,6 +128,7 @@ def blocks(results: dict, context: dict) -> dict:
         "policy_details": _policy_details(results),
         "losses_by_ref": _losses(results),
         "regimes": _regimes(results),
+        "substitutions": _substitutions(results),
     }
     view.update(_pictures(results))
     return view
