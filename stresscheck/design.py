@@ -80,6 +80,9 @@ class Design:
         return v_out / value if kind == "resistance" else 0.0 * v_out + value
     heatsinks: dict[str, float] = field(default_factory=dict)  # id -> sink to ambient [K/W]
     gate_voltage: float | None = None  # [V] gate drive; None: per technology default
+    # overlap transition times: "times" (sheet t_rise/t_fall) or "gate-charge"
+    overlap_method: str = "times"
+    gate_resistance: float | None = None  # [ohm] driver output + external gate resistor
 
     def by_role(self, role: str) -> list[Component]:
         return [c for c in self.components if c.role == role]
@@ -90,7 +93,8 @@ class Design:
 
 
 CONVERTER_KEYS = ("name", "topology", "rectifier", "modulation", "switching_frequency",
-                  "dead_time", "max_duty", "clamp", "overshoot", "gate_voltage")
+                  "dead_time", "max_duty", "clamp", "overshoot", "gate_voltage",
+                  "overlap_method", "gate_resistance")
 OPERATING_KEYS = ("input", "input_voltage", "input_surge", "output_voltage", "output_current",
                   "current_limit", "ambient_temperature", "line_frequency", "hold_up_time",
                   "hold_up_voltage", "minimum_load")
@@ -208,6 +212,7 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
     design.clamp = load_clamp(conv, path)
     design.overshoot = load_overshoot(conv, path)
     design.gate_voltage = scalar(conv, "gate_voltage", "voltage", "converter.")
+    _load_gate_drive(design, conv, scalar)
     library = PartLibrary(part_folders(path, parts_dirs))
     design.heatsinks = _load_heatsinks(doc, path)
     design.components = _load_components(doc, path, library)
@@ -220,6 +225,19 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
     layout.validate(design)
     check_spike_options(design)
     return design
+
+
+def _load_gate_drive(design, conv, scalar) -> None:
+    """``overlap_method`` (one of ``schema.OVERLAP_METHODS``, default "times") and
+    ``gate_resistance``, which the gate-charge method needs."""
+    design.overlap_method = require_str(conv, "overlap_method", design.path, "converter.",
+                                        optional=True,
+                                        choices=schema.OVERLAP_METHODS) or "times"
+    design.gate_resistance = scalar(conv, "gate_resistance", "resistance", "converter.")
+    if design.overlap_method == "gate-charge" and design.gate_resistance is None:
+        raise InputError(design.path, "converter.gate_resistance", "overlap_method = "
+                         "\"gate-charge\" needs the gate-drive resistance outside the part "
+                         "(driver output plus external gate resistor)")
 
 
 def check_bound(path, key: str, low: float, high: float) -> None:

@@ -17,17 +17,18 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from . import flux, magnetics_loss, switching
+from . import flux, line_cycle_losses, magnetics_loss, switching
 
 SWITCH_TERMS = ("overlap", "c_oss", "commutation")
 DIODE_TERMS = ("recovery",)
 DEFAULT_RESISTANCE_T = 25.0  # [degC] sheet winding resistances when not stated
 # Models whose waveform grid spans a line cycle (each segment standing for many
-# switching periods), not one switching period: the transitions cannot be read off it,
-# so switching and core losses are left out there (named in the rows' notes).
+# switching periods), not one switching period: the transitions cannot be read off it;
+# their switching and core losses come from the per-angle solution the model gives
+# (``StageResult.line_cycle``, ``line_cycle_losses.py``), averaged over the line cycle.
 LINE_CYCLE_TOPOLOGIES = ("pfc-boost",)
-LINE_CYCLE_NOTE = ("switching and core losses: not modelled yet for the line-cycle model "
-                   "of this topology")
+LINE_CYCLE_NOTE = ("switching and core losses: the line-cycle model gave no per-angle "
+                   "solution")
 
 
 @dataclass
@@ -78,17 +79,23 @@ class LossContext:
         if self._cache is not None and self._cache[0] is result:
             return self._cache[1]
         out = Extra()
-        if self.line_cycle:
+        d = self.design
+        drive = switching.GateDrive(d.gate_voltage, getattr(d, "overlap_method", "times"),
+                                    getattr(d, "gate_resistance", None))
+        phase_shift = None
+        if self.line_cycle and getattr(result, "line_cycle", None) is None:
             out.switching = {p.key: switching.SwitchingLosses(left_out=[LINE_CYCLE_NOTE])
                              for p in self._semis}
             self._cache = (result, out)
             return out
-        phase_shift = None
-        if self.design.modulation == "phase-shift" and self.magnetics is not None:
-            xf = self.magnetics()
-            phase_shift = {"l_lk": xf.l_leak, "l_m": xf.l_m}
-        out.switching = switching.compute(result, self._semis, self.design.gate_voltage,
-                                          phase_shift)
+        if self.line_cycle:
+            out.switching = line_cycle_losses.switching_losses(result, self._semis, drive)
+        else:
+            if d.modulation == "phase-shift" and self.magnetics is not None:
+                xf = self.magnetics()
+                phase_shift = {"l_lk": xf.l_leak, "l_m": xf.l_m}
+            out.switching = switching.compute(result, self._semis, d.gate_voltage,
+                                              phase_shift, drive)
         # a surge (transient corner) is too short to heat anything: its switching losses
         # are left out there (its thermal rows are not checked), so the loop keeps the
         # junctions at their steady temperatures for the voltage stresses of the surge
@@ -115,10 +122,19 @@ def transformer_core(part, topology, magnetics, corners, result):
 
 
 def inductor_core(part, current, inductance, result):
-    """Core loss of one inductor position [W], (N,), or (None, why)."""
+    """Core loss of one inductor position [W], (N,), or (None, why); for a line-cycle
+    model (``result.line_cycle`` set) the line-cycle average of
+    ``line_cycle_losses.inductor_core``, with ``inductance`` [H] per device and the
+    loss per device."""
     e = part.electrical
     if "turns" not in e:
         return None, "no turns and core_area on the part sheet"
+    cyc = getattr(result, "line_cycle", None)
+    if cyc is not None:
+        loss = line_cycle_losses.inductor_core(e, cyc, inductance)
+        if loss is None:
+            return None, "no core-loss data (steinmetz_*, core_volume) on the part sheet"
+        return loss, ""
     pieces = flux.inductor_pieces(current, inductance, e["turns"], e["core_area"])
     loss = magnetics_loss.core_loss(e, *pieces, result.grid.period)
     if loss is None:

@@ -15,6 +15,10 @@ Main sources
       data-sheet parameters", manufacturer application note, 2006: §3 (switching with
       the recovery charge of the commutated diode, the diode's own recovery energy,
       output capacitance), §4 (gate charge and gate-drive loss) — from memory.
+[BAL] L. Balogh, "Fundamentals of MOSFET and IGBT gate driver circuits", semiconductor
+      manufacturer application report, 2002 (rev. 2017), §3 "MOSFET technology",
+      turn-on and turn-off procedure (switching intervals from the gate charges and the
+      gate current at the Miller plateau) — from memory, equation numbers not confirmed.
 [SVR] J. A. Sabaté, V. Vlatković, R. B. Ridley, F. C. Lee, B. H. Cho, "Design
       considerations for high-voltage high-power full-bridge zero-voltage-switched PWM
       converter", IEEE APEC 1990, pp. 275–284 (the energy condition for zero-voltage
@@ -90,6 +94,52 @@ def overlap_loss(v_off, i_on, i_off, t_rise, t_fall, f_s):
         Mean loss [W].
     """
     return overlap_energy(v_off, i_on, i_off, t_rise, t_fall) * np.asarray(f_s, dtype=float)
+
+
+def gate_charge_times(q_gd, q_gs, v_plateau, v_drive, r_gate, q_gs2=None):
+    """Transition times of a hard switching event from the gate charge [s].
+
+    Notes
+    -----
+    While the drain current and voltage change, the gate sits near the Miller plateau
+    V_pl and the driver moves the charge Q_sw = Q_gs2 + Q_gd (from the threshold to the
+    end of the plateau) with the current through the gate-loop resistance
+    R = R_drive + R_g ([BAL] §3; [GPK] §3 — from memory):
+
+    * turn-on: I_G,on = (V_drive − V_pl)/R, t_rise = Q_sw/I_G,on;
+    * turn-off: I_G,off = V_pl/R (the driver pulls the gate to 0 V), t_fall = Q_sw/I_G,off.
+
+    Without Q_gs2 on the sheet, Q_gs2 = Q_gs/2 (the charge from threshold to plateau
+    taken as half of the gate-source charge; common practice). These times stand for
+    the whole crossover intervals of ``overlap_energy``.
+
+    Parameters
+    ----------
+    q_gd : float
+        Gate-drain (Miller) charge [C].
+    q_gs : float
+        Gate-source charge up to the plateau [C].
+    v_plateau : float
+        Miller-plateau gate voltage [V].
+    v_drive : float
+        Gate drive voltage (swing, off state at 0 V) [V]; above ``v_plateau``.
+    r_gate : float
+        Total gate-loop resistance, driver output and external plus internal [ohm].
+    q_gs2 : float, optional
+        Gate-source charge from threshold to plateau [C].
+
+    Returns
+    -------
+    tuple of float
+        (t_rise, t_fall) [s].
+    """
+    if v_drive <= v_plateau:
+        raise ValueError(f"gate drive {v_drive:g} V does not reach the plateau "
+                         f"{v_plateau:g} V")
+    q_sw = q_gd + (q_gs2 if q_gs2 is not None else 0.5 * q_gs)
+    i_on = (v_drive - v_plateau) / r_gate
+    i_off = v_plateau / r_gate
+    return q_sw / i_on, q_sw / i_off
 
 
 def oss_energy(v, c_oss=None, e_oss=None, q_oss=None, v_ref=None):

@@ -24,7 +24,9 @@ LOSSES_INCLUDED = (
     "'conduction', body diode included)",
     "diode forward conduction: v_f0·I_avg + r_d·I_rms² ('conduction')",
     "MOSFET hard-switching overlap: ½·V_off·(I_on·t_rise + I_off·t_fall)·f_s with the "
-    "sheet's t_rise, t_fall and the device current at each transition ('overlap')",
+    "sheet's t_rise, t_fall (or, with [converter] overlap_method = \"gate-charge\", the "
+    "times Q_sw/I_G from the gate charge and the gate-drive current; each switch's row "
+    "note names the method) and the device current at each transition ('overlap')",
     "MOSFET output capacitance at hard turn-on: E_oss(V_off)·f_s from e_oss, c_oss "
     "(energy equivalent) or q_oss ('c_oss'); phase-shifted bridge: the residual energy "
     "where the inductive energy does not reach 2·E_oss(V_in)",
@@ -38,6 +40,11 @@ LOSSES_INCLUDED = (
     "on the flux waveform, from the sheet's coefficients and core volume ('core')",
     "gate drive Q_g·V_gs·f_s: reported per MOSFET in driver_losses (dissipated in the "
     "driver, not in the switch)",
+    "line-cycle models (pfc-boost): the switching-period terms above at each line angle "
+    "(CCM or DCM; a DCM turn-on has no overlap and no recovery charge, its C_oss and the "
+    "diode's C_j still charged from the peak blocking voltage), averaged over the line "
+    "cycle; core loss from the switching-period flux loops per angle plus the "
+    "line-frequency loop",
 )
 LOSSES_NOT_INCLUDED = (
     "leakage-inductance energy (clamp or snubber loss; a modelled clamp's power is "

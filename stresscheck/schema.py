@@ -34,6 +34,9 @@ TOPOLOGIES = tuple(_MODELS)
 INPUTS = ("dc", "ac")
 RECTIFIERS = ("center-tap", "full-bridge", "current-doubler")
 MODULATIONS = ("pwm", "phase-shift")
+# How a MOSFET's hard-switching transition times are found ([converter] overlap_method):
+# the sheet's t_rise/t_fall, or from the gate charge and the gate-drive current.
+OVERLAP_METHODS = ("times", "gate-charge")
 
 ROLES = ("bridge-rectifier", "switch", "rectifier", "freewheel", "reset", "transformer",
          "inductor", "input-capacitor", "output-capacitor", "split-capacitor")
@@ -85,7 +88,10 @@ PART_KEYS: dict[str, dict[str, dict[str, Key]]] = {
                        "t_rise": Key("time"), "t_fall": Key("time"),
                        "v_sd": Key("voltage"), "r_sd": Key("resistance"),
                        "e_oss": Key("energy"), "q_oss": Key("charge"),
-                       "oss_voltage": Key("voltage"), "q_rr": Key("charge")},
+                       "oss_voltage": Key("voltage"), "q_rr": Key("charge"),
+                       "q_gd": Key("charge"), "q_gs": Key("charge"),
+                       "q_gs2": Key("charge"), "v_plateau": Key("voltage"),
+                       "r_g": Key("resistance")},
         "thermal": {"r_th_jc": Key("thermal_resistance")},
     },
     "diode": {

@@ -61,6 +61,61 @@ class SwitchingLosses:
     driver: np.ndarray | None = None  # gate-drive power [W], dissipated in the driver
     left_out: list = field(default_factory=list)  # "term: why" for the row's note
     zvs: np.ndarray | None = None  # (N,) bool: every turn-on of the device soft
+    method: str = ""  # which method set the overlap term, for the row's note
+
+
+@dataclass
+class GateDrive:
+    """The design's gate-drive options ([converter] gate_voltage, overlap_method,
+    gate_resistance)."""
+
+    voltage: float | None = None  # [V]; None: per technology (losses.DEFAULT_GATE_VOLTAGE)
+    method: str = "times"  # schema.OVERLAP_METHODS
+    resistance: float | None = None  # [ohm] driver output plus external gate resistor
+
+    def v_gs(self, technology: str) -> float:
+        """Gate drive voltage of a MOSFET of ``technology`` [V]."""
+        return self.voltage if self.voltage is not None else \
+            L.DEFAULT_GATE_VOLTAGE.get(technology, 10.0)
+
+
+def transition_times(s: Semi, drive: GateDrive):
+    """(t_rise, t_fall, method, left_out) of a switch: the transition times [s] (None
+    where the sheet lacks a value), the note naming the method, and "term: why" lines.
+
+    "times": the sheet's t_rise and t_fall; "gate-charge": ``losses.gate_charge_times``
+    from q_gd, q_gs (or q_gs2), v_plateau and r_g of the sheet with the design's gate
+    voltage and gate_resistance.
+    """
+    e = s.electrical
+    if drive.method != "gate-charge":
+        t_r, t_f = _value(e, "t_rise"), _value(e, "t_fall")
+        out = []
+        if t_r is None:
+            out.append("overlap at turn-on: no t_rise on the part sheet")
+        if t_f is None:
+            out.append("overlap at turn-off: no t_fall on the part sheet")
+        shown = ", ".join(k for k, v in (("t_rise", t_r), ("t_fall", t_f)) if v is not None)
+        method = f"overlap from the sheet's {shown}" if shown else ""
+        return t_r, t_f, method, out
+    need = ["q_gd", "v_plateau", "r_g"] + ([] if "q_gs2" in e else ["q_gs"])
+    gaps = [k for k in need if k not in e]
+    if gaps:
+        return None, None, "", ["overlap: gate-charge method, no " + ", ".join(gaps)
+                                + " on the part sheet"]
+    v_drive = drive.v_gs(s.technology)
+    r = drive.resistance + float(e["r_g"])
+    try:
+        t_r, t_f = L.gate_charge_times(float(e["q_gd"]), _value(e, "q_gs") or 0.0,
+                                       float(e["v_plateau"]), v_drive, r,
+                                       q_gs2=_value(e, "q_gs2"))
+    except ValueError as err:
+        return None, None, "", [f"overlap: gate-charge method, {err}"]
+    q2 = "Q_gs2" if "q_gs2" in e else "Q_gs/2"
+    method = (f"overlap by the gate-charge method: t_rise {t_r * 1e9:.3g} ns, t_fall "
+              f"{t_f * 1e9:.3g} ns (Q_gd + {q2} at I_G = (V_drive − V_plateau)/R and "
+              f"V_plateau/R, R = {r:.3g} Ω)")
+    return t_r, t_f, method, []
 
 
 def previous_segment(dt: np.ndarray) -> np.ndarray:
@@ -95,7 +150,7 @@ def _has_oss(e: dict) -> bool:
 
 
 def compute(result, semis: list[Semi], gate_voltage: float | None = None,
-            phase_shift: dict | None = None) -> dict:
+            phase_shift: dict | None = None, drive: GateDrive | None = None) -> dict:
     """Switching-related losses of every semiconductor position.
 
     Parameters
@@ -109,12 +164,16 @@ def compute(result, semis: list[Semi], gate_voltage: float | None = None,
     phase_shift : dict, optional
         For the phase-shifted full bridge: ``{"l_lk": H, "l_m": (N,) H}``; the soft
         turn-ons the model assumes are then checked against the energy relation.
+    drive : GateDrive, optional
+        Overlap method and gate resistance (default: the sheet's times, and
+        ``gate_voltage``).
 
     Returns
     -------
     dict
         key -> SwitchingLosses.
     """
+    drive = drive or GateDrive(gate_voltage)
     grid = result.grid
     dt = grid.dt
     period = grid.period
@@ -207,15 +266,12 @@ def compute(result, semis: list[Semi], gate_voltage: float | None = None,
         v = np.asarray(result.v_block[s.key], dtype=float)[:, None]
         hard, soft, toff = on_edge[s.key], soft_edge[s.key], off_edge[s.key]
         res.zvs = ~hard.any(axis=1)
-        t_r, t_f = _value(e, "t_rise"), _value(e, "t_fall")
+        t_r, t_f, res.method, gaps = transition_times(s, drive)
+        res.left_out.extend(gaps)
         e_over = np.zeros(dt.shape)
-        if t_r is None:
-            res.left_out.append("overlap at turn-on: no t_rise on the part sheet")
-        else:
+        if t_r is not None:
             e_over += np.where(hard, 0.5 * v * i_on[s.key] * t_r, 0.0)
-        if t_f is None:
-            res.left_out.append("overlap at turn-off: no t_fall on the part sheet")
-        else:
+        if t_f is not None:
             e_over += np.where(toff, 0.5 * v * i_off[s.key] * t_f, 0.0)
         if t_r is not None or t_f is not None:
             res.terms["overlap"] = e_over.sum(axis=1) / period
@@ -232,8 +288,7 @@ def compute(result, semis: list[Semi], gate_voltage: float | None = None,
         if s.kind != "mosfet":
             continue
         q_g = _value(s.electrical, "q_g")
-        v_gs = gate_voltage if gate_voltage is not None else \
-            L.DEFAULT_GATE_VOLTAGE.get(s.technology, 10.0)
+        v_gs = drive.v_gs(s.technology)
         if q_g is None:
             out[s.key].left_out.append("gate drive: no q_g on the part sheet")
         else:

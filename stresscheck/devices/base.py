@@ -222,13 +222,18 @@ class DeviceModel:
         return out
 
     def loss_note(self, result: StageResult) -> str:
-        """The loss terms left out for want of sheet values, for the rows' note (the
-        switching-related terms of a semiconductor; kinds add their own)."""
+        """The method that set a switch's overlap term and the loss terms left out for
+        want of sheet values, for the rows' note (the switching-related terms of a
+        semiconductor; kinds add their own)."""
         if self.context is None:
             return ""
         sw = self.context.extra(result).switching.get(self.key)
-        return ("left out: " + "; ".join(sw.left_out)) if sw is not None and sw.left_out \
-            else ""
+        if sw is None:
+            return ""
+        parts = [sw.method] if sw.method else []
+        if sw.left_out:
+            parts.append("left out: " + "; ".join(sw.left_out))
+        return "; ".join(parts)
 
     def driver_losses(self, result: StageResult) -> Losses:
         """Power of one device dissipated outside it, in its driver [W] (gate drive)."""

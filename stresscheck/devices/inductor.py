@@ -35,7 +35,12 @@ class Inductor(DeviceModel):
 
     def _core(self, result: StageResult):
         if self.context is not None and self.context.line_cycle:
-            return None, loss_model.LINE_CYCLE_NOTE
+            if getattr(result, "line_cycle", None) is None:
+                return None, loss_model.LINE_CYCLE_NOTE
+            # the line cycle is solved with the inductance of one device for the
+            # position's current: the flux of one device is L·(i/devices)/(N·A_e)
+            return loss_model.inductor_core(self.part, None,
+                                            self.inductance() / self.devices, result)
         core, why = loss_model.inductor_core(self.part, result.currents[self.key],
                                              self.inductance() * self.devices, result)
         return (None if core is None else core / self.devices), why

@@ -167,6 +167,9 @@ class StageResult:
     # against its capacitance at the lowest tolerance
     capacitance_needed: dict[tuple[str, int], np.ndarray] = field(default_factory=dict)
     clamp_loss: np.ndarray | None = None  # [W] a modelled clamp's power, in the balance
+    # a model whose grid spans a line cycle gives its per-angle solution here (a
+    # ``pfc_line.LineCycle``): the switching and core losses are taken from it
+    line_cycle: object | None = None
 
 
 @runtime_checkable

@@ -182,6 +182,7 @@ def evaluate(st: Stage, m: int = DEFAULT_ANGLES) -> StageResult:
                "crest; bus voltage peaks from the line-cycle ripple (line- and switching-"
                "frequency parts and ESR); bridge diodes block the line crest; no inrush, "
                "no line transients"])
+    result.line_cycle = cyc  # per-angle events for the switching and core losses
     finite = np.isfinite(cyc.i_peak).all(axis=1) & np.isfinite(up)
     result.invalid.append((~finite, "the line cycle cannot be solved (the conduction "
                            "drops leave no regulation margin)"))
