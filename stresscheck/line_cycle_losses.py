@@ -27,8 +27,10 @@ Events per angle (the boost cell of the model: switch, boost diode, inductor):
 * every transition at the position's peak blocking voltage (``StageResult.v_block``:
   the bus peak plus the diode drop for the switch, the bus peak for the diode), not the
   local bus voltage at θ: conservative by the line-frequency ripple;
-* the switch is gated (and its gate charged) at the angles where the model gives an
-  on-time, which is every angle whose rectified voltage exceeds the bridge drops;
+* the switch is gated (its gate charged, its C_oss discharged and the diode's C_j
+  charged) at every angle, also where the rectified voltage does not exceed the bridge
+  drops and the model gives no on-time (the controller keeps switching through the zero
+  crossing; conservative);
 * the bridge diodes commutate at the line zero crossings with the current near zero:
   no recovery loss is counted for them (common practice).
 
@@ -110,7 +112,7 @@ def boost_cell_energies(v_sw, v_d, i_start, i_peak, dcm, gated, *, t_rise=None,
     """
     dcm = np.asarray(dcm, dtype=bool)
     gated = np.asarray(gated, dtype=bool)
-    ccm = gated & ~dcm
+    ccm = gated & ~dcm & (np.asarray(i_start) > 0)
     i_on = np.where(ccm, i_start, 0.0) / switch_devices
     i_off = np.where(gated, i_peak, 0.0) / switch_devices
     out = {}
@@ -152,7 +154,7 @@ def switching_losses(result, semis, drive: GateDrive) -> dict:
     if sw is None or dio is None:
         return out
     f_s = 1.0 / cyc.ts
-    gated = cyc.t_on > 0
+    gated = np.ones(cyc.t_on.shape, dtype=bool)  # every angle (module notes)
     v_sw = np.asarray(result.v_block[SWITCH], dtype=float)[:, None]
     v_d = np.asarray(result.v_block[DIODE], dtype=float)[:, None]
     e, d = sw.electrical, dio.electrical
@@ -179,7 +181,7 @@ def switching_losses(result, semis, drive: GateDrive) -> dict:
         res.left_out.append(f"commutation: {dio.ref} gives no " + " and ".join(missing))
     if "recovery" in energies:
         out[DIODE].terms["recovery"] = line_average(energies["recovery"], f_s)
-    elif q_rr is None and (gated & ~cyc.dcm).any():
+    elif q_rr is None and (~cyc.dcm & (cyc.i_start > 0)).any():
         out[DIODE].left_out.append("recovery: no q_rr on the part sheet")
     res.zvs = np.zeros(gated.shape[0], dtype=bool)
     for s in semis:
@@ -188,7 +190,7 @@ def switching_losses(result, semis, drive: GateDrive) -> dict:
         if "q_g" not in s.electrical:
             out[s.key].left_out.append("gate drive: no q_g on the part sheet")
             continue
-        # Q_g·V_gs·f_s at the angles where the switch is gated ([GPK] §4)
+        # Q_g·V_gs·f_s at every angle ([GPK] §4)
         out[s.key].driver = line_average(
             np.where(gated, L.gate_drive_loss(float(s.electrical["q_g"]),
                                               drive.v_gs(s.technology), 1.0), 0.0), f_s)
