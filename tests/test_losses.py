@@ -114,3 +114,18 @@ def test_zvs_boundary_matches_the_leg_transition(ratio):
     assert L.residual_turn_on_energy(e_need, e_avail) == \
         pytest.approx(c_oss * v_r ** 2, abs=1e-4 * e_need)
     assert L.residual_turn_on_energy(e_need, 0.0) == pytest.approx(e_need)
+
+
+def test_gate_charge_times_worked_by_hand():
+    # Balogh, gate-driver application report 2002/2017, §3 (from memory): switching
+    # charge Q_gs2 + Q_gd moved by I_G,on = (V_drive − V_pl)/R, I_G,off = V_pl/R.
+    # Q_gs2 given: 3 nC + 9 nC = 12 nC; R = 4 Ω; V_drive 12 V, V_pl 4 V:
+    # I_on = 2 A -> 6 ns, I_off = 1 A -> 12 ns (worked here by hand)
+    from stresscheck.losses import gate_charge_times
+
+    t_r, t_f = gate_charge_times(9e-9, 8e-9, 4.0, 12.0, 4.0, q_gs2=3e-9)
+    assert (t_r, t_f) == pytest.approx((6e-9, 12e-9), rel=1e-12)
+    # without Q_gs2 the charge to the plateau is taken as Q_gs/2 (common practice)
+    assert gate_charge_times(9e-9, 6e-9, 4.0, 12.0, 4.0)[0] == pytest.approx(6e-9)
+    with pytest.raises(ValueError, match="plateau"):
+        gate_charge_times(9e-9, 6e-9, 4.0, 4.0, 4.0)
