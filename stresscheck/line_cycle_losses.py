@@ -31,8 +31,11 @@ Events per angle (the boost cell of the model: switch, boost diode, inductor):
   charged) at every angle, also where the rectified voltage does not exceed the bridge
   drops and the model gives no on-time (the controller keeps switching through the zero
   crossing; conservative);
-* the bridge diodes commutate at the line zero crossings with the current near zero:
-  no recovery loss is counted for them (common practice).
+* the bridge diodes turn off once per line cycle, at the zero crossing; their own
+  recovery ¼·Q_rr·V_R·f_line is counted with the stored charge scaled to the smallest
+  non-zero local current of the sampled cycle (the current falls to zero between that
+  sample and the crossing) and V_R the line crest: both conservative, the loss is
+  small (``bridge_recovery``).
 
 Core loss of the boost inductor: at each angle, the flux minor loop of the switching
 period (B = L·i/(N·A_e): swing L·(i_peak − i_start)/(N·A_e), rising over t_on and
@@ -48,7 +51,7 @@ import numpy as np
 
 from . import losses as L
 from . import magnetics_loss
-from .switching import SCHOTTKY, GateDrive, SwitchingLosses, e_oss_of, transition_times
+from .switching import EPS_REL, SCHOTTKY, GateDrive, SwitchingLosses, e_oss_of, transition_times
 
 SWITCH = ("switch", 0)
 DIODE = ("rectifier", 0)
@@ -183,6 +186,9 @@ def switching_losses(result, semis, drive: GateDrive) -> dict:
         out[DIODE].terms["recovery"] = line_average(energies["recovery"], f_s)
     elif q_rr is None and (~cyc.dcm & (cyc.i_start > 0)).any():
         out[DIODE].left_out.append("recovery: no q_rr on the part sheet")
+    for s in semis:
+        if s.role == "bridge-rectifier" and s.kind == "diode":
+            bridge_recovery(out[s.key], s, cyc, result.v_block[s.key])
     res.zvs = np.zeros(gated.shape[0], dtype=bool)
     for s in semis:
         if s.kind != "mosfet":
@@ -195,6 +201,39 @@ def switching_losses(result, semis, drive: GateDrive) -> dict:
             np.where(gated, L.gate_drive_loss(float(s.electrical["q_g"]),
                                               drive.v_gs(s.technology), 1.0), 0.0), f_s)
     return out
+
+
+def bridge_recovery(res: SwitchingLosses, s, cyc, v_r) -> None:
+    """A bridge diode's own recovery loss [W], put into ``res`` (``recovery``).
+
+    P = ¼·Q_rr·min(1, I_F/I_F,avg,rated)·V_R·f_line ([GPK] §3 via
+    ``losses.diode_recovery_energy``, the charge-control scaling of ``switching.py``):
+    one turn-off per line cycle, at I_F the smallest non-zero local line current of
+    the sampled cycle (per device) and V_R the line crest (``v_r``).
+
+    Parameters
+    ----------
+    res : SwitchingLosses
+        The position's terms.
+    s : switching.Semi
+        The bridge diode position.
+    cyc : pfc_line.LineCycle
+        The solved line cycle.
+    v_r : array_like
+        (N,) reverse voltage after the turn-off [V].
+    """
+    q_rr = s.electrical.get("q_rr")
+    if q_rr is None and s.technology in SCHOTTKY:
+        q_rr = 0.0
+    if q_rr is None:
+        res.left_out.append("recovery: no q_rr on the part sheet")
+        return
+    floor = EPS_REL * cyc.i_avg.max(axis=1, keepdims=True)  # rounding at the crossing
+    i_avg = np.where(cyc.i_avg > floor, cyc.i_avg, np.inf).min(axis=1)
+    i_f = np.where(np.isfinite(i_avg), i_avg, 0.0) / s.devices
+    i_rated = (s.ratings or {}).get("i_f_avg")
+    share = np.minimum(i_f / i_rated, 1.0) if i_rated else np.ones_like(i_f)
+    res.terms["recovery"] = L.diode_recovery_energy(q_rr, v_r) * share / cyc.t_line
 
 
 def inductor_core(e: dict, cyc, inductance):

@@ -231,7 +231,7 @@ def compute(result, semis: list[Semi], gate_voltage: float | None = None,
             if (q_rr is None or c_j is None) and np.any(blocked & (hard_devices > 0)):
                 what = " and ".join(k for k, v in (("q_rr", q_rr), ("c_j", c_j)) if v is None)
                 missing_commutation.append(f"{s.ref} gives no {what}")
-            if q_rr:
+            if q_rr is not None:  # 0 for a Schottky diode: stated as a zero term
                 rec = np.where(cut, L.diode_recovery_energy(q_rr, v_r) * share, 0.0)
                 out[s.key].terms["recovery"] = rec.sum(axis=1) / period
             elif q_rr is None and np.any(cut):

@@ -197,3 +197,23 @@ def test_example_reports_every_term_and_heats_with_it():
                                atol=1e-3)
     assert "gate-charge method" in tj.note
     assert_energy_balance(ev)
+
+
+def test_bridge_diode_recovery_once_per_line_cycle():
+    # ¼·Q_rr·V_R per turn-off (Graovac, Pürschel, Kiep 2006, §3 — from memory), once per
+    # line cycle, the charge scaled to the first sampled current after the crossing:
+    # lossless, i = I_pk·sin(2π/96) (the samples sit at 2πk/96)
+    cyc = solve(230.0, 96)
+    vr = np.sqrt(2) * 230.0
+    res = types.SimpleNamespace(line_cycle=cyc, v_block={("bridge-rectifier", 0):
+                                                         np.array([vr])})
+    semi = Semi(("bridge-rectifier", 0), "D1", "bridge-rectifier", "diode", "general",
+                {"q_rr": 3e-6}, 1, {"i_f_avg": 6.0})
+    out = LC.switching_losses(res, [semi], GateDrive())
+    assert out[("bridge-rectifier", 0)].terms == {}  # no boost cell: nothing computed
+    from stresscheck.switching import SwitchingLosses
+    sl = SwitchingLosses()
+    LC.bridge_recovery(sl, semi, cyc, np.array([vr]))
+    i_min = 2 * 380.0 * 0.79 / vr * np.sin(2 * np.pi / 96)
+    want = 0.25 * 3e-6 * (i_min / 6.0) * vr * 50.0
+    assert sl.terms["recovery"][0] == pytest.approx(want, rel=1e-6)
