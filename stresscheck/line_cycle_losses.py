@@ -111,7 +111,8 @@ def boost_cell_energies(v_sw, v_d, i_start, i_peak, dcm, gated, *, t_rise=None,
         Per device, (N, M) [J]: ``overlap`` (½·V·(I_on·t_rise + I_off·t_fall), [MUR]
         eq. 2-6), ``c_oss`` (E_oss(V)), ``commutation`` (Q_rr·share·V_R + ½·C_j·V_R²
         of the diode, shared by the switch devices, [GPK] §3) in each switch device;
-        ``recovery`` (¼·Q_rr·share·V_R, [GPK] §3) in each diode device.
+        ``recovery`` (¼·Q_rr·share·V_R, [GPK] §3) in each diode device, when
+        ``q_rr`` is given.
     """
     dcm = np.asarray(dcm, dtype=bool)
     gated = np.asarray(gated, dtype=bool)
@@ -128,7 +129,7 @@ def boost_cell_energies(v_sw, v_d, i_start, i_peak, dcm, gated, *, t_rise=None,
     e_rr = L.commutation_energy(v_d, q_rr or 0.0) * share  # per diode device
     e_cj = np.where(gated, L.commutation_energy(v_d, 0.0, c_j or 0.0), 0.0)
     out["commutation"] = (e_rr + e_cj) * diode_devices / switch_devices
-    if q_rr:
+    if q_rr is not None:  # 0 for a Schottky diode: stated as a zero term
         out["recovery"] = L.diode_recovery_energy(q_rr, v_d) * share
     return out
 
