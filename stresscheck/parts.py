@@ -99,7 +99,8 @@ def parse_curve(raw, spec, path, key) -> Curve:
 
 
 def _curve_example(spec) -> str:
-    return {"frequency": "100 kHz", "temperature": "85 degC", "voltage": "25 V"}.get(
+    return {"frequency": "100 kHz", "temperature": "85 degC", "voltage": "25 V",
+            "current": "5 A"}.get(
         spec.curve, "1")
 
 
@@ -197,6 +198,15 @@ def _check_consistency(part: Part) -> None:
         if r["i_sat_hot_temperature"] <= 25.0:
             raise InputError(path, "ratings.i_sat_hot_temperature", "must be above 25 degC "
                              "(i_sat is the 25 degC value)")
+    roll = e.get("inductance_vs_current") if part.kind == "inductor" else None
+    if roll is not None:
+        if roll.x[0] < 0:
+            raise InputError(path, "electrical.inductance_vs_current", "currents must not "
+                             "be negative (the fraction is read at the current's magnitude)")
+        if max(roll.y) > 1.0 or any(b > a for a, b in zip(roll.y, roll.y[1:])):
+            raise InputError(path, "electrical.inductance_vs_current", "fractions must be "
+                             "at most 1 and must not rise with the current (a saturation "
+                             "roll-off of the sheet's inductance)")
     if part.kind == "transformer":
         for key in ("primary_turns", "secondary_turns"):
             if key not in e:

@@ -120,6 +120,7 @@ PART_KEYS: dict[str, dict[str, dict[str, Key]]] = {
                     "t_max": Key("temperature"), "i_sat_hot": Key("current"),
                     "i_sat_hot_temperature": Key("temperature")},
         "electrical": {"inductance": Key("inductance", spread=True),
+                       "inductance_vs_current": Key("fraction", curve="current"),
                        "dcr": Key("resistance"), "turns": Key("count"),
                        "core_area": Key("area"), **CORE_LOSS_KEYS},
         "thermal": {"r_th": Key("thermal_resistance")},

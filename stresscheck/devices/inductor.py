@@ -25,7 +25,15 @@ class Inductor(DeviceModel):
         # the converter model takes the sheet's DCR (its drops are small); the loss
         # below takes it at the hot spot
         parts.inductors.append(InductorParameters(
-            self.inductance(), self.electrical.get("dcr", 0.0) / self.devices))
+            self.inductance(), self.electrical.get("dcr", 0.0) / self.devices,
+            roll_off=self.electrical.get("inductance_vs_current"), key=self.key,
+            devices=self.devices, ref=self.refs[0]))
+
+    def solved_inductance(self, result: StageResult) -> np.ndarray:
+        """Inductance of one device the model was solved with [H], (N,): the corner's
+        inductance, at the peak current where the sheet gives ``inductance_vs_current``
+        (``topologies.saturation``)."""
+        return result.inductance.get(self.key, self.inductance())
 
     def _copper_ref(self, result: StageResult):
         dcr = self.electrical.get("dcr")
@@ -42,7 +50,8 @@ class Inductor(DeviceModel):
             return loss_model.inductor_core(self.part, None,
                                             self.inductance() / self.devices, result)
         core, why = loss_model.inductor_core(self.part, result.currents[self.key],
-                                             self.inductance() * self.devices, result)
+                                             self.solved_inductance(result) * self.devices,
+                                             result)
         return (None if core is None else core / self.devices), why
 
     def losses(self, result: StageResult, t: np.ndarray) -> Losses:

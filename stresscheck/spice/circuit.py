@@ -69,6 +69,9 @@ class Circuit:
     r_secondary: float = 0.0  # [ohm] per secondary winding (center-tap: per half)
     core_area: float | None = None  # [m^2]
     l_out: float = 1.0  # [H] output inductor
+    # saturation roll-off by inductor name ("Lout", "Lout2"): (currents of the position
+    # [A], fractions of the inductance [1]) where the sheet gives inductance_vs_current
+    roll_off: dict = field(default_factory=dict)
     dcr_out: float = 0.0  # [ohm]
     c_out: CapacitorModel | None = None
     c_in: CapacitorModel | None = None  # full-bridge, push-pull
@@ -137,6 +140,10 @@ def circuit_at(ev, i: int) -> Circuit:
         c.l_out, c.dcr_out = float(st.inductors[0].l[i]), st.inductors[0].dcr
     if len(st.inductors) > 1:
         c.l_out_2, c.dcr_out_2 = float(st.inductors[1].l[i]), st.inductors[1].dcr
+    for name, ind in zip(("Lout", "Lout2"), st.inductors):
+        if ind.roll_off is not None:
+            c.roll_off[name] = (tuple(x * ind.devices for x in ind.roll_off.x),
+                                tuple(ind.roll_off.y))
     if xf is not None:
         c.n_p, c.n_s, c.l_m = xf.n_p, xf.n_s, float(xf.l_m[i])
         c.r_primary, c.r_secondary, c.core_area = xf.r_p, xf.r_s, xf.core_area

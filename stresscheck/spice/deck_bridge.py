@@ -99,7 +99,8 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
         d.diode_at(lay.rectifiers, f"d{k}", anode, cathode, dm, i_rect)
 
     # Output filter and load.
-    d.inductor("Lout", "rect", "out", c.l_out, c.dcr_out, ic["lout"])
+    d.inductor("Lout", "rect", "out", c.l_out, c.dcr_out, ic["lout"],
+                   roll_off=c.roll_off.get("Lout"))
     d.output(c, ic)
     return d.finish(ts, t_stop, t_measure), lay
 

@@ -163,12 +163,14 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
 
     # Output filter and load.
     if doubler:
-        d.inductor("Lout", "sa", "out", c.l_out, c.dcr_out, ic["lout"])
+        d.inductor("Lout", "sa", "out", c.l_out, c.dcr_out, ic["lout"],
+                   roll_off=c.roll_off.get("Lout"))
         d.inductor("Lout2", "sb", "out", c.l_out_2, c.dcr_out_2, ic["lout2"],
-                   dcr_tag="dcr2", mid="lo2")
+                   dcr_tag="dcr2", mid="lo2", roll_off=c.roll_off.get("Lout2"))
         lay.inductors["lout2"] = c.l_out_2
     else:
-        d.inductor("Lout", "rect", "out", c.l_out, c.dcr_out, ic["lout"])
+        d.inductor("Lout", "rect", "out", c.l_out, c.dcr_out, ic["lout"],
+                   roll_off=c.roll_off.get("Lout"))
     d.output(c, ic)
     return d.finish(ts, t_stop, t_measure), lay
 

@@ -137,10 +137,12 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
             lay.mosfets[("freewheel", 0)] = d.switch(1, node, "0", "2", p, i_ref)
         else:
             d.diode_at(lay.freewheels, "f0", "0", node, p, i_ref)
-        d.inductor("Lout", node, "out", c.l_out, c.dcr_out, ic["lout"])
+        d.inductor("Lout", node, "out", c.l_out, c.dcr_out, ic["lout"],
+                   roll_off=c.roll_off.get("Lout"))
     else:
         node = "sw"
-        d.inductor("Lout", "bus", node, c.l_out, c.dcr_out, ic["lout"], mid="li")
+        d.inductor("Lout", "bus", node, c.l_out, c.dcr_out, ic["lout"], mid="li",
+                   roll_off=c.roll_off.get("Lout"))
         lay.switches.append(d.switch(0, node, "0", "1", c.switches[0], i_ref))
         if synchronous(c):
             lay.mosfets[("rectifier", 0)] = d.switch(1, "out", node, "2", p, i_ref)

@@ -148,7 +148,8 @@ def build_push_pull(c: Circuit, duty: float, t_stop: float, t_measure: float,
     i_rect = I_REF_FRACTION * c.i_out
     for k, ((anode, cathode), dm) in enumerate(zip(pins, c.rectifiers)):
         d.diode_at(lay.rectifiers, f"d{k}", anode, cathode, dm, i_rect)
-    d.inductor("Lout", "rect", "out", c.l_out, c.dcr_out, ic["lout"])
+    d.inductor("Lout", "rect", "out", c.l_out, c.dcr_out, ic["lout"],
+                   roll_off=c.roll_off.get("Lout"))
     d.output(c, ic)
     return d.finish(ts, t_stop, t_measure, steps=STEPS_PER_PERIOD), lay
 

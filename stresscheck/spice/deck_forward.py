@@ -176,7 +176,8 @@ def build(c: Circuit, duty: float, t_stop: float, t_measure: float,
         d.diode_at(lay.freewheels, "f0", "0", "rect", c.freewheels[0], c.i_out)
 
     # Output filter and load.
-    d.inductor("Lout", "rect", "out", c.l_out, c.dcr_out, ic["lout"])
+    d.inductor("Lout", "rect", "out", c.l_out, c.dcr_out, ic["lout"],
+                   roll_off=c.roll_off.get("Lout"))
     d.output(c, ic)
     return d.finish(ts, t_stop, t_measure), lay
 

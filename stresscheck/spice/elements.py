@@ -242,11 +242,27 @@ class NetlistWriter:
         return (f"v{tag}", plus, minus, f"{tag}_e", f"{tag}_s")
 
     def inductor(self, name: str, a: str, b: str, inductance: float, dcr: float, i0: float,
-                 dcr_tag: str = "dcr", mid: str = "lo") -> None:
+                 dcr_tag: str = "dcr", mid: str = "lo", roll_off=None) -> None:
         """L with its DCR: ``a`` -> ``R{dcr_tag}`` -> ``mid`` -> ``name`` -> ``b``;
-        inductance [H], DCR [ohm], initial current ``i0`` [A] from ``mid`` to ``b``."""
+        inductance [H], DCR [ohm], initial current ``i0`` [A] from ``mid`` to ``b``.
+
+        With ``roll_off`` = (currents [A], fractions [1]) of the position, the inductance
+        falls with the current: a behavioural source ``B{name}`` in series after ``name``
+        holds V = (f(|i|) − 1)·v_L, so the branch obeys v = f(|i|)·L·di/dt, i.e.
+        di/dt = v/(L·f(|i|)) (the differential inductance at the current), with f the
+        table read by straight lines, flat beyond its ends."""
         self.res(dcr_tag, a, mid, dcr)
-        self.add(f"{name} {mid} {b} {inductance:.12g} IC={i0:.12g}")
+        if roll_off is None:
+            self.add(f"{name} {mid} {b} {inductance:.12g} IC={i0:.12g}")
+            return
+        x, y = roll_off
+        pts = [(x[0] - 1e3 * (1.0 + abs(x[0])), y[0]), *zip(x, y),
+               (x[-1] + 1e3 * (1.0 + abs(x[-1])), y[-1])]
+        table = ", ".join(f"{xi:.9g},{yi:.9g}" for xi, yi in pts)
+        node = f"{mid}_{name.lower()}"
+        self.add(f"{name} {mid} {node} {inductance:.12g} IC={i0:.12g}")
+        self.add(f"B{name} {node} {b} V = (pwl(abs(i({name})), {table}) - 1)"
+                 f" * V({mid},{node})")
 
     def options(self, extra: str = "") -> None:
         """Simulator options (current tolerance :data:`ABSTOL`, then ``extra``, e.g. an

@@ -92,6 +92,12 @@ class Magnetics:
 class Inductor:
     l: np.ndarray  # [H] (N,)
     dcr: float = 0.0  # [ohm]
+    # saturation roll-off (``saturation.solve``): fraction of ``l`` against the current
+    # of one device [A] -> [1]; None: the inductance does not depend on the current
+    roll_off: object = None
+    key: tuple[str, int] | None = None  # the position's key in ``StageResult.currents``
+    devices: int = 1  # identical devices sharing the position's current
+    ref: str = ""  # the position's first ref, for notes
 
 
 @dataclass
@@ -170,6 +176,9 @@ class StageResult:
     # a model whose grid spans a line cycle gives its per-angle solution here (a
     # ``pfc_line.LineCycle``): the switching and core losses are taken from it
     line_cycle: object | None = None
+    # inductance each inductor position was solved with where its sheet gives a roll-off
+    # (``saturation.solve``): position key -> (N,) [H] of one device
+    inductance: dict[tuple[str, int], np.ndarray] = field(default_factory=dict)
 
 
 @runtime_checkable

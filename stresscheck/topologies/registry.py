@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import boost, bridge, buck, flyback, forward, pfc_boost
+from . import boost, bridge, buck, flyback, forward, pfc_boost, saturation
 from ..errors import InputError
 from .base import Layout, Stage, StageResult, Topology
 
@@ -48,8 +48,10 @@ def layout_for(design) -> Layout:
 
 
 def evaluate(stage: Stage) -> StageResult:
-    """Periodic steady state of every corner of ``stage`` by its topology's model."""
-    return TOPOLOGIES[stage.topology].evaluate(stage)
+    """Periodic steady state of every corner of ``stage`` by its topology's model, with
+    each inductor's inductance at its peak current where its sheet gives a saturation
+    roll-off (``saturation.solve``)."""
+    return saturation.solve(stage, TOPOLOGIES[stage.topology].evaluate)
 
 
 def duty_limit_reason(design) -> str:
