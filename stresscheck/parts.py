@@ -188,16 +188,17 @@ def _check_consistency(part: Part) -> None:
     if part.kind == "inductor" and "inductance" not in e:
         raise InputError(path, "electrical.inductance", "an inductor needs an inductance")
     r = part.ratings
-    if part.kind == "inductor" and ("i_sat_hot" in r) != ("i_sat_hot_temperature" in r):
-        raise InputError(path, "ratings.i_sat_hot", "i_sat_hot and i_sat_hot_temperature "
-                         "go together")
-    if part.kind == "inductor" and "i_sat_hot" in r:
-        if "i_sat" not in r:
-            raise InputError(path, "ratings.i_sat", "i_sat_hot needs i_sat (the 25 degC "
+    key = {"inductor": "i_sat", "transformer": "b_sat"}.get(part.kind)
+    if key is not None and (f"{key}_hot" in r) != (f"{key}_hot_temperature" in r):
+        raise InputError(path, f"ratings.{key}_hot", f"{key}_hot and "
+                         f"{key}_hot_temperature go together")
+    if key is not None and f"{key}_hot" in r:
+        if key not in r:
+            raise InputError(path, f"ratings.{key}", f"{key}_hot needs {key} (the 25 degC "
                              "value) too")
-        if r["i_sat_hot_temperature"] <= 25.0:
-            raise InputError(path, "ratings.i_sat_hot_temperature", "must be above 25 degC "
-                             "(i_sat is the 25 degC value)")
+        if r[f"{key}_hot_temperature"] <= 25.0:
+            raise InputError(path, f"ratings.{key}_hot_temperature", "must be above "
+                             f"25 degC ({key} is the 25 degC value)")
     roll = e.get("inductance_vs_current") if part.kind == "inductor" else None
     if roll is not None:
         if roll.x[0] < 0:

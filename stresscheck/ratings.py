@@ -6,6 +6,12 @@
   with temperature, so the saturation current does: the makers' i_sat-vs-temperature
   curves, common practice); below 25 °C it stays at ``i_sat`` (no credit for cold). The inductor's i_peak is
   already taken at the lowest inductance of its tolerance (a corner column).
+- Transformer saturation flux density at its hot spot likewise: ``b_sat`` (25 °C) and
+  ``b_sat_hot`` at ``b_sat_hot_temperature`` (a ferrite's B_sat falls with temperature,
+  typically by a fifth to a third from 25 °C to 100 °C: the material tables of the
+  ferrite makers, common practice); the transformer's b_peak is already taken at the
+  highest magnetizing inductance and, where ``core_area`` has a tolerance, at its
+  lowest area.
 - MOSFET breakdown voltage at the junction temperature: ``v_ds_tc`` [1/K] on the sheet
   (silicon rises about 0.1 %/K, so at −40 °C the rating is about 6.5 % below its 25 °C
   value: common practice), V(T) = V_25·(1 + tc·(T_j − 25 °C)); T_j where the engine
@@ -23,6 +29,23 @@ import numpy as np
 T_REF = 25.0  # [degC] temperature of the headline ratings
 
 
+def hot_scale(r25: float, r_hot: float, t_hot: float, t):
+    """r(T)/r25 [1], (N,): linear through (25 °C, r25) and (t_hot, r_hot), extrapolated
+    above t_hot, held at 1 below 25 °C, never below 0.
+
+    Parameters
+    ----------
+    r25, r_hot : float
+        The rating at 25 °C and at ``t_hot`` [its unit].
+    t_hot : float
+        The hot point [degC].
+    t : array
+        Temperature per corner [degC].
+    """
+    t = np.maximum(np.asarray(t, dtype=float), T_REF)
+    return np.maximum(1.0 + (r_hot / r25 - 1.0) * (t - T_REF) / (t_hot - T_REF), 0.0)
+
+
 def i_sat_scale(ratings: dict, t_hotspot):
     """i_sat(T)/i_sat [1], (N,): linear through (25 °C, i_sat) and (T_hot, i_sat_hot),
     held at 1 below 25 °C, never below 0.
@@ -35,9 +58,8 @@ def i_sat_scale(ratings: dict, t_hotspot):
     t_hotspot : array
         Inductor temperature per corner [degC].
     """
-    i25, i_hot, t_hot = ratings["i_sat"], ratings["i_sat_hot"], ratings["i_sat_hot_temperature"]
-    t = np.maximum(np.asarray(t_hotspot, dtype=float), T_REF)
-    return np.maximum(1.0 + (i_hot / i25 - 1.0) * (t - T_REF) / (t_hot - T_REF), 0.0)
+    return hot_scale(ratings["i_sat"], ratings["i_sat_hot"],
+                     ratings["i_sat_hot_temperature"], t_hotspot)
 
 
 def breakdown_scale(tc: float, t_junction):
@@ -98,14 +120,18 @@ def apply(stresses, corners, notes) -> None:
             rows["i_ripple_rms"].rating_scale = {"i_ripple": ripple_scale(
                 r, corners["switching_frequency"], t_a)}
             rows["i_ripple_rms"].rating_temperature = t_a
-        if part.kind == "inductor" and "i_peak" in rows and "i_sat_hot" in r and "i_sat" in r:
+        for kind, q, key in (("inductor", "i_peak", "i_sat"),
+                             ("transformer", "b_peak", "b_sat")):
+            if part.kind != kind or q not in rows or f"{key}_hot" not in r or key not in r:
+                continue
             t = rows.get("t_hotspot")
             temp = t.values if t is not None and np.isfinite(t.values).all() else None
             # no hot spot computed: the rating at the hot point (the lower one)
             temp = temp if temp is not None else np.full(corners.size,
-                                                         r["i_sat_hot_temperature"])
-            rows["i_peak"].rating_scale = {"i_sat": i_sat_scale(r, temp)}
-            rows["i_peak"].rating_temperature = temp
+                                                         r[f"{key}_hot_temperature"])
+            rows[q].rating_scale = {key: hot_scale(r[key], r[f"{key}_hot"],
+                                                   r[f"{key}_hot_temperature"], temp)}
+            rows[q].rating_temperature = temp
         for kind, q, key, tc_key in (("mosfet", "v_peak", "v_ds", "v_ds_tc"),
                                      ("diode", "v_reverse_peak", "v_rrm", "v_rrm_tc")):
             if part.kind != kind or q not in rows:

@@ -126,11 +126,14 @@ PART_KEYS: dict[str, dict[str, dict[str, Key]]] = {
         "thermal": {"r_th": Key("thermal_resistance")},
     },
     "transformer": {
-        "ratings": {"b_sat": Key("flux_density"), "t_max": Key("temperature")},
+        "ratings": {"b_sat": Key("flux_density"), "t_max": Key("temperature"),
+                    "b_sat_hot": Key("flux_density"),
+                    "b_sat_hot_temperature": Key("temperature")},
         "electrical": {"primary_turns": Key("count"), "secondary_turns": Key("count"),
                        "reset_turns": Key("count"),
                        "magnetizing_inductance": Key("inductance", spread=True),
-                       "leakage_inductance": Key("inductance"), "core_area": Key("area"),
+                       "leakage_inductance": Key("inductance"),
+                       "core_area": Key("area", spread=True),
                        "r_primary": Key("resistance"), "r_secondary": Key("resistance"),
                        "r_reset": Key("resistance"), **CORE_LOSS_KEYS},
         "thermal": {"r_th": Key("thermal_resistance")},
@@ -144,7 +147,7 @@ POSITIVE_KEYS = {"r_ds_on", "r_ds_on_hot", "capacitance", "inductance", "primary
                  "i_ripple", "ripple_frequency", "i_sat", "i_rms", "b_sat", "life", "p_d",
                  "r_th_jc", "r_th", "e_oss", "q_oss", "oss_voltage", "steinmetz_k",
                  "steinmetz_alpha", "steinmetz_beta", "core_volume", "core_loss_density",
-                 "core_loss_flux", "core_loss_frequency", "turns"}
+                 "core_loss_flux", "core_loss_frequency", "turns", "b_sat_hot"}
 
 
 @dataclass(frozen=True)

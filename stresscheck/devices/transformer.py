@@ -40,10 +40,29 @@ class Transformer(DeviceModel):
                                    self.part.spread("magnetizing_inductance").nom)
         else:
             l_m = np.full(self.size, NO_MAGNETIZING)
+        area = self.part.spread("core_area")
         return Magnetics(e["primary_turns"], e["secondary_turns"], l_m,
                          e.get("r_primary", 0.0), e.get("r_secondary", 0.0),
-                         e.get("core_area"), e.get("reset_turns"), e.get("r_reset", 0.0),
-                         e.get("leakage_inductance", 0.0))
+                         None if area is None else area.nom, e.get("reset_turns"),
+                         e.get("r_reset", 0.0), e.get("leakage_inductance", 0.0),
+                         area.min if area is not None and area.is_range else None)
+
+    def area_factor(self) -> float:
+        """A_e,nom / A_e,min [1]: the models take the flux B = V·t/(N·A_e) (Faraday's
+        law; flyback B = L_m·I_pk/(N·A_e)) at the sheet's nominal core area; a core
+        area with a tolerance has its peak flux checked at the low end (the flux
+        density is inversely proportional to the area: McLyman, Transformer and
+        Inductor Design Handbook, 4th ed., ch. 1 and 7, B = V·t/(N·A_c)). 1 without a
+        tolerance."""
+        area = self.part.spread("core_area")
+        if area is None or not area.is_range:
+            return 1.0
+        return area.nom / area.min
+
+    def area_note(self) -> str:
+        if self.area_factor() == 1.0:
+            return ""
+        return "at the lowest core_area of its tolerance"
 
     def add_to(self, parts: StageParts, t: np.ndarray) -> None:
         # the converter model takes the sheet's resistances; the loss below takes
@@ -89,6 +108,7 @@ class Transformer(DeviceModel):
         if result.b_peak is None:
             b_peak = Row("b_peak", np.full(self.size, np.nan), "no core_area on the part sheet")
         else:
-            b_peak = Row("b_peak", result.b_peak)
+            b_peak = Row("b_peak", result.b_peak * self.area_factor(),
+                         note=self.area_note())
         return [b_peak, Row("t_hotspot", temperature.values, temperature.reason,
                             self.loss_note(result))]

@@ -146,7 +146,9 @@ def circuit_at(ev, i: int) -> Circuit:
                                 tuple(ind.roll_off.y))
     if xf is not None:
         c.n_p, c.n_s, c.l_m = xf.n_p, xf.n_s, float(xf.l_m[i])
-        c.r_primary, c.r_secondary, c.core_area = xf.r_p, xf.r_s, xf.core_area
+        # the peak flux is checked at the low end of the core area's tolerance
+        c.r_primary, c.r_secondary = xf.r_p, xf.r_s
+        c.core_area = xf.core_area_low or xf.core_area
         c.n_r, c.r_reset, c.l_leak = xf.n_r, xf.r_r, xf.l_leak
     if ("input-capacitor", 0) in st.capacitors:
         cin = st.capacitors[("input-capacitor", 0)]

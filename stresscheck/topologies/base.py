@@ -86,6 +86,9 @@ class Magnetics:
     n_r: float | None = None  # reset winding turns
     r_r: float = 0.0  # [ohm] reset winding
     l_leak: float = 0.0  # [H] leakage, referred to the primary
+    # [m^2] low end of the core area's tolerance (None: no tolerance): the peak flux is
+    # checked there (devices.transformer), the core loss taken at ``core_area``
+    core_area_low: float | None = None
 
 
 @dataclass
