@@ -54,11 +54,12 @@ def run(design, corners: CornerSet | None = None) -> Evaluation:
     corners = corners if corners is not None else build_corners(design)
     devices = build_devices(design, corners)
     notes = [note for device in devices for note in device.notes()]
-    t, runaway, unsettled = solve_temperatures(design, corners, devices)
+    start: dict = {}  # inductances of the last pass, where a roll-off is solved
+    t, runaway, unsettled = solve_temperatures(design, corners, devices, start)
     # corners where a loop ran away or did not settle: not a solution (checks.py reports
     # their rows not computed, a runaway t_j as the fail it is)
     unsolved = {key: runaway[key] | unsettled[key] for key in runaway}
-    stage = build_stage(design, corners, devices, t)
+    stage = build_stage(design, corners, devices, t, start)
     result = evaluate(stage)
     _check_model(design, corners, result, stage,
                  skip=np.logical_or.reduce([np.zeros(corners.size, bool),
@@ -95,7 +96,7 @@ def run(design, corners: CornerSet | None = None) -> Evaluation:
 
 
 def build_stage(design, corners: CornerSet, devices: list[DeviceModel],
-                t: dict[Key, np.ndarray]) -> Stage:
+                t: dict[Key, np.ndarray], start: dict | None = None) -> Stage:
     """The converter model's per-corner parameters with the devices at temperatures ``t``.
 
     Parameters
@@ -108,6 +109,9 @@ def build_stage(design, corners: CornerSet, devices: list[DeviceModel],
         The design's device models (``devices.build_devices``).
     t : dict
         Position key -> device temperature [degC], (N,).
+    start : dict, optional
+        Inductor position key -> inductance [H], (N,), from which a saturation roll-off
+        starts (a previous pass's solution, ``StageResult.inductance``).
 
     Returns
     -------
@@ -116,6 +120,9 @@ def build_stage(design, corners: CornerSet, devices: list[DeviceModel],
     parts = StageParts()
     for device in devices:
         device.add_to(parts, t[device.key])
+    for ind in parts.inductors:
+        if start and ind.key in start:
+            ind.l_start = start[ind.key]
     return Stage(topology=design.topology, rectifier=design.rectifier,
                  modulation=design.modulation, v_in=corners["input_voltage"],
                  vo=corners["output_voltage"],
@@ -132,7 +139,8 @@ def build_stage(design, corners: CornerSet, devices: list[DeviceModel],
                  handover=spikes.handover(design))
 
 
-def solve_temperatures(design, corners: CornerSet, devices: list[DeviceModel]):
+def solve_temperatures(design, corners: CornerSet, devices: list[DeviceModel],
+                       start: dict | None = None):
     """The electro-thermal loop: fixed point of temperature -> parameters -> losses.
 
     Devices with ``thermal_feedback`` (losses that depend on their temperature) or on a
@@ -144,6 +152,9 @@ def solve_temperatures(design, corners: CornerSet, devices: list[DeviceModel]):
     ----------
     design, corners, devices
         As for ``build_stage``.
+    start : dict, optional
+        Filled with the inductances each pass solved a saturation roll-off at; each
+        pass starts from the previous one's (few re-evaluations once the loop settles).
 
     Returns
     -------
@@ -163,7 +174,9 @@ def solve_temperatures(design, corners: CornerSet, devices: list[DeviceModel]):
     runaway = {d.key: np.zeros(corners.size, bool) for d in looped}
     moving = {d.key: np.zeros(corners.size, bool) for d in looped}
     for _ in range(THERMAL_MAX_ITER if heated else 0):
-        result = evaluate(build_stage(design, corners, devices, t))
+        result = evaluate(build_stage(design, corners, devices, t, start))
+        if start is not None:
+            start.update(result.inductance)
         t_new = _temperature_step(heated, result, t, t_a, design.heatsinks)
         moved = 0.0
         for key, t_key in t_new.items():

@@ -15,11 +15,16 @@ References:
 
 from __future__ import annotations
 
+import re
+import shutil
+from pathlib import Path
+
 import numpy as np
 import pytest
 
 from builders import write_case
 from builders_buck_boost import cell_design, cell_parts
+from stresscheck.corners import CornerSet, build_corners
 from stresscheck.design import load_design
 from stresscheck.engine import run
 from stresscheck.errors import InputError
@@ -132,3 +137,65 @@ def test_bad_table_refused(tmp_path, table, words):
     with pytest.raises(InputError) as err:
         load_design(write_case(tmp_path, design, rolled_parts(table)))
     assert "inductance_vs_current" in str(err.value) and words in str(err.value)
+
+
+ROOT = Path(__file__).parent.parent
+INDUCTOR_EXAMPLES = sorted(p.parent.name for p in ROOT.glob("examples/*/design.toml")
+                           if "ind-" in p.read_text())
+STEEP = {"0 A": 1.0, "3 A": 0.9, "30 A": 0.5}  # invented, steep enough to move every example
+
+
+def with_table(tmp_path, example, table):
+    """A copy of ``example`` whose inductor sheet (copied beside it) carries ``table``."""
+    folder = tmp_path / example
+    shutil.copytree(ROOT / "examples" / example, folder)
+    (folder / "parts").mkdir(exist_ok=True)
+    design = (folder / "design.toml").read_text()
+    (part_id,) = set(re.findall(r'"(ind-[a-z0-9-]+)"', design))
+    sheet = folder / "parts" / f"{part_id}.toml"
+    if not sheet.exists():
+        shutil.copy(ROOT / "parts" / f"{part_id}.toml", sheet)
+    text = re.sub(r"(?m)^inductance_vs_current.*\n", "", sheet.read_text())
+    if table:
+        row = ", ".join(f'"{k}" = {v}' for k, v in table.items())
+        text = re.sub(r"(?m)^(inductance\s*=.*\n)", rf"\1inductance_vs_current = {{ {row} }}\n",
+                      text, count=1)
+    sheet.write_text(text)
+    return load_design(folder / "design.toml")
+
+
+def some_corners(corners: CornerSet, count: int = 12) -> CornerSet:
+    """``count`` corners spread over the set (the first and the last included)."""
+    sel = np.unique(np.linspace(0, corners.size - 1, count).round().astype(int))
+    return CornerSet([corners.ids[k] for k in sel], corners.kind[sel],
+                     {k: v[sel] for k, v in corners.columns.items()}, corners.units)
+
+
+@pytest.mark.parametrize("example", INDUCTOR_EXAMPLES)
+def test_every_topology_solves_at_the_inductance_of_its_peak(tmp_path, example):
+    """The fixed point holds in every topology with an output or boost inductor:
+    L = L_corner·f(I_pk/devices) at every corner and for every inductor position
+    (current doubler: both), and the swing is at least the one without the table
+    (ΔI = V·t/L grows as L falls: Erickson & Maksimovic, §2.3)."""
+    design = with_table(tmp_path / "a", example, STEEP)
+    corners = some_corners(build_corners(design))
+    rolled = run(design, corners)
+    plain = run(with_table(tmp_path / "b", example, None), corners)
+    curve = Curve((0.0, 3.0, 30.0), (1.0, 0.9, 0.5))
+    keys = [k for k in rolled.result.inductance]
+    assert keys and all(role == "inductor" for role, _ in keys)
+    for key in keys:
+        comp = next(c for c in rolled.design.components if c.role == "inductor")
+        spread = comp.part.spread("inductance")
+        l_corner = rolled.corners.columns.get(f"{comp.refs[0]}.inductance",
+                                              np.full(rolled.corners.size, spread.nom))
+        devices = comp.parallel
+        i_pk = rolled.result.currents[key].peak() / devices
+        # to the fixed point's settling tolerance (saturation.REL_TOL)
+        np.testing.assert_allclose(rolled.result.inductance[key], l_corner * curve(i_pk),
+                                   rtol=2e-6)
+        i_r, i_p = rolled.result.currents[key], plain.result.currents[key]
+        steady = rolled.corners.steady_mask()
+        assert ((i_r.max() - i_r.min())[steady]
+                >= (i_p.max() - i_p.min())[steady] * (1 - 1e-6)).all()
+        assert ((i_r.max() - i_r.min())[steady] > (i_p.max() - i_p.min())[steady]).any()

@@ -101,6 +101,8 @@ class Inductor:
     key: tuple[str, int] | None = None  # the position's key in ``StageResult.currents``
     devices: int = 1  # identical devices sharing the position's current
     ref: str = ""  # the position's first ref, for notes
+    # [H] (N,) where the roll-off's iteration starts (a previous solution); None: ``l``
+    l_start: np.ndarray | None = None
 
 
 @dataclass
