@@ -74,9 +74,11 @@ def solve(stage: Stage, evaluate_once) -> StageResult:
         for k in rolled:
             ind = stage.inductors[k]
             i_pk = result.currents[ind.key].peak() / ind.devices
-            new[k] = base[k] * ind.roll_off(i_pk)
+            # a corner the model cannot solve (NaN) keeps its inductance: the model's
+            # own reasons report it
+            new[k] = np.where(np.isfinite(i_pk), base[k] * ind.roll_off(i_pk), current[k])
         step = np.max([np.abs(new[k] - current[k]) / base[k] for k in rolled], axis=0)
-        settled = step <= REL_TOL
+        settled = ~(step > REL_TOL)
         if settled.all():
             break
         current = new
