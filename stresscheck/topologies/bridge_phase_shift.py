@@ -80,12 +80,14 @@ from ..waveforms import (Grid, capacitor_voltage_samples, max_over, mean_over_sa
                          per_corner)
 from .base import Stage, StageResult
 from . import bridge_phase_shift_intervals as iv
+from . import phase_shift_light as psl
 
 SUB = 4  # sub-segments of a freewheel with both rectifiers on (exponential i_p)
 S0, S1, OPEN, S3, P, FA_SH, FA_SI = range(7)
 FB_SH = tuple(range(7, 7 + SUB))
 FB_SI = 7 + SUB
 HALF = FB_SI + 1
+assert psl.HALF == HALF and psl.FB0 == FB_SH[0] and psl.FA_SI == FA_SI
 APPLIED = np.array([k <= P for k in range(HALF)])  # the diagonal drives the primary
 SINGLE = np.isin(np.arange(HALF), [P, FA_SI, FB_SI])
 LEAD_BODY = np.isin(np.arange(HALF), [FA_SH, FA_SI])
@@ -158,6 +160,15 @@ def _half(p, v, d, i_a, i_m, p_a):
     end = tuple(np.where(case_a, s, x) for x, s in zip(end3, state))
     put(S3, dur, state, end)
     state = end
+    early = psl.early_commutation(p, e0, r0, (-p_a, i_a, -i_m), t_d, t_z)
+    if early is not None:  # light load: the commutation ends before i_p reverses
+        mask, segs, fin = early
+        for k, (dur, s, e, both) in segs.items():
+            dt[:, k] = np.where(mask, dur, dt[:, k])
+            for arr, x in zip((ip_a, il_a, m_a, ip_b, il_b, m_b), s + e):
+                arr[:, k] = np.where(mask, x, arr[:, k])
+            shared[:, k] = np.where(mask, both, shared[:, k])
+        state = tuple(np.where(mask, x, y) for x, y in zip(fin, state))
     # P: effective power interval, one rectifier.
     t_pre = dt[:, :P].sum(axis=1)
     dur = d * p.ts - t_pre
@@ -274,8 +285,14 @@ def evaluate(st: Stage) -> StageResult:
     applied = np.concatenate([APPLIED, APPLIED])
     v = st.v_in.copy()
     start = None
+    light = None  # light-load corners (diode rectifiers): phase_shift_light
     for _ in range(BUS_PASSES):  # the bus ripple lowers the mean applied voltage
         start, (dt, ip, il, m, shared), converged = _solve(p, v, start)
+        if light is None:  # decided once, on the first pass's CCM solution
+            light = psl.Light(p, st, il)
+        if light.idx.size:
+            start, (dt, ip, il, m, shared), converged = light.apply(
+                p, v, start, (dt, ip, il, m, shared), converged)
         grid = Grid(np.concatenate([dt, dt], axis=1))
         # the bus feeds the primary while a diagonal (or its body diode) applies it
         i_bus = grid.wave(*_mirror(_only(APPLIED, ip)))
@@ -288,6 +305,7 @@ def evaluate(st: Stage) -> StageResult:
         if settled:
             break
     d, i_a0, i_m0, _ = start
+    light_rows = np.isin(np.arange(io.shape[0]), light.idx)
     ip_w = grid.wave(*_mirror(ip, tuple(-x for x in ip)))
     il_w = grid.wave(*_mirror(il))
     m_w = grid.wave(*_mirror(m, tuple(-x for x in m)))
@@ -369,7 +387,17 @@ def evaluate(st: Stage) -> StageResult:
     drop = per_corner(p.vf1) + per_corner(p.rd1 + p.r_s) * il_s
     v_rev = (n if p.bridge else 2 * n) * v_tx - drop
     single = np.concatenate([SINGLE, SINGLE])[None, :] & lasting
+    if light.idx.size:  # light load: the power interval however short (pulse skipping)
+        single = single | (np.isin(np.arange(2 * HALF), [P, HALF + P])[None, :]
+                           & light_rows[:, None])
     v_rect = np.maximum(max_over(v_rev, single), 0.0)
+    if light.idx.size:  # after the current stops: V_o, and (2·)n·v_tx in OPEN
+        v_rect = v_rect.copy()
+        k_open = n if p.bridge else 2 * n
+        after = np.maximum(np.broadcast_to(p.vo, io.shape)[light.idx],
+                           k_open * light.open_voltage()
+                           - np.broadcast_to(p.vf1, io.shape)[light.idx])
+        v_rect[light.idx] = np.maximum(v_rect[light.idx], after)
     for k in currents:
         if k[0] == "rectifier":
             v_block[k] = v_rect
@@ -409,7 +437,7 @@ def evaluate(st: Stage) -> StageResult:
                         "the output inductance"))
     else:
         invalid += [
-            (il_w.min() <= 0, "the output inductor current falls to zero (discontinuous "
+            (~light_rows & (il_w.min() <= 0), "the output inductor current falls to zero (discontinuous "
                               "conduction), which the phase-shifted bridge model does not "
                               "cover yet; raise the minimum load or the output inductance, "
                               "or use synchronous rectifiers"),
@@ -418,10 +446,14 @@ def evaluate(st: Stage) -> StageResult:
              "rectifiers conduct, so one would stop (not modelled); raise the magnetizing "
              "inductance or the minimum load"),
         ]
+    regime = np.full(io.shape, "CCM", dtype=object)
+    if p.sync:  # the channels conduct both ways: never discontinuous
+        regime[il_w.min() < 0] = "forced-CCM"
+    regime[light.idx] = light.regime()
     return StageResult(duty=d, grid=grid, currents=currents, v_block=v_block,
                        input_current=i_dc, winding_loss=p_wind, b_peak=b_peak,
                        i_m_peak=i_m_peak, i_l_start=i_a0, i_m_start=-i_m0, body=body,
-                       invalid=invalid, regime=np.full(io.shape, "CCM", dtype=object),
+                       invalid=invalid, regime=regime,
                        notes=["the model's rectifier voltages are before any ringing (the "
                               "design's overshoot allowance adds it); the zero-voltage transitions "
                               "are taken as ideal (no check that the leakage energy charges C_oss)"]
