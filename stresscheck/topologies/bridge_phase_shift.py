@@ -287,7 +287,12 @@ def evaluate(st: Stage) -> StageResult:
     start = None
     light = None  # light-load corners (diode rectifiers): phase_shift_light
     for _ in range(BUS_PASSES):  # the bus ripple lowers the mean applied voltage
-        start, (dt, ip, il, m, shared), converged = _solve(p, v, start)
+        # CCM steady state where it holds (every corner on the first pass, which
+        # decides the light-load corners; a corner refused as not modelled is refused
+        # whatever the others do)
+        rows = (io > 0) if light is None else ~light.mask
+        start, (dt, ip, il, m, shared), converged = psl.solve_rows(
+            _solve, p, v, start, rows, io.shape[0])
         if light is None:  # decided once, on the first pass's CCM solution
             light = psl.Light(p, st, il)
         if light.idx.size:

@@ -204,14 +204,16 @@ def solve(p, v, d_max, start=None):
         aa, out = _steady(p, v, dd, aa)
         return np.sqrt(np.maximum(_mean(out), 0.0)) - target, aa
 
+    d = np.where(skip, D_FLOOR, d)
     g0, a = g(d, a)
-    d1 = np.clip(d * 1.001, D_FLOOR, d_max)
+    d1 = np.where(skip, D_FLOOR, np.clip(d * 1.001, D_FLOOR, d_max))
     g1, a = g(d1, a)
     for _ in range(DUTY_ITER):
         den = g1 - g0
         ok = np.abs(den) > 0
         d2 = np.where(ok, d1 - g1 * (d1 - d) / np.where(ok, den, 1.0), d1)
         d2 = np.clip(d2, np.maximum(d1 / 4, D_FLOOR), np.minimum(d1 * 4, d_max))
+        d2 = np.where(skip, D_FLOOR, d2)
         d, g0 = d1, g1
         d1 = d2
         g1, a = g(d1, a)
@@ -253,6 +255,7 @@ class Light:
         mask = (io <= 0) | ~(il_min > 0)
         if p.sync:
             mask[:] = False
+        self.mask = mask
         self.idx = np.flatnonzero(mask)
         size = io.shape[0]
         self.q = take(p, self.idx, size)
@@ -307,6 +310,11 @@ def early_commutation(p, e0, r0, start, t_d, t_z):
     the outgoing rectifier's current negative beyond its noise floor (the corners it
     refuses), so every other corner keeps its solution exactly.
     """
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return _early(p, e0, r0, start, t_d, t_z)
+
+
+def _early(p, e0, r0, start, t_d, t_z):
     n = p.n
     n_c = start[0].shape[0]
     dur0 = np.minimum(_b(t_d, n_c), t_z)
@@ -341,3 +349,29 @@ def early_commutation(p, e0, r0, start, t_d, t_z):
     segs[OPEN] = (np.where(cross, t2, 0.0), end, fin, False)
     segs[S3] = (np.where(cross, dur - t2, 0.0), fin, fin, False)
     return mask, segs, fin
+
+
+def solve_rows(solve_ccm, p, v, start, rows, size):
+    """``solve_ccm`` (the CCM steady state) on the corners ``rows`` only, its results
+    scattered into full-size arrays (zero elsewhere, for :class:`Light` to fill)."""
+    if rows.all():
+        return solve_ccm(p, v, start)
+    idx = np.flatnonzero(rows)
+    sub_start = None if start is None else tuple(np.asarray(x)[idx] for x in start)
+    st, (dt, ip, il, m, sh), conv = solve_ccm(take(p, idx, size), v[idx], sub_start)
+
+    def full(x, dtype=float):
+        out = np.zeros((size,) + x.shape[1:], dtype=dtype)
+        out[idx] = x
+        return out
+
+    st_full = tuple(full(x) if start is None else _put(np.asarray(y, float), idx, x)
+                    for x, y in zip(st, start or st))
+    return (st_full, (full(dt), tuple(full(x) for x in ip), tuple(full(x) for x in il),
+                      tuple(full(x) for x in m), full(sh, bool)), full(conv, bool))
+
+
+def _put(base, idx, x):
+    out = np.array(base, dtype=float, copy=True)
+    out[idx] = x
+    return out
