@@ -181,7 +181,7 @@ def _all_finite(ev):
 
 
 # Light-load regimes still not modelled: refused with the corner named (issue item 5).
-NOT_MODELLED = {"full-bridge-phase-shift", "half-bridge-current-doubler"}
+NOT_MODELLED = {"half-bridge-current-doubler"}
 EXAMPLES = sorted(p.parent.name for p in ROOT.glob("examples/*/design.toml")) + ["demo"]
 
 

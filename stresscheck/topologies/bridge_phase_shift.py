@@ -454,7 +454,8 @@ def evaluate(st: Stage) -> StageResult:
     regime = np.full(io.shape, "CCM", dtype=object)
     if p.sync:  # the channels conduct both ways: never discontinuous
         regime[il_w.min() < 0] = "forced-CCM"
-    regime[light.idx] = light.regime()
+    if light.idx.size:
+        regime[light.idx] = light.regime()
     return StageResult(duty=d, grid=grid, currents=currents, v_block=v_block,
                        input_current=i_dc, winding_loss=p_wind, b_peak=b_peak,
                        i_m_peak=i_m_peak, i_l_start=i_a0, i_m_start=-i_m0, body=body,

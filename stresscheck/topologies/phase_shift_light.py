@@ -162,7 +162,8 @@ def half(p, v, d, a):
         state = end
         rest = length - t_c
         i_end = _circulate(p, e, r, state[2], rest)
-        end = (i_end, zero, i_end)
+        idle = rest > 0
+        end = tuple(np.where(idle, x, y) for x, y in zip((i_end, zero, i_end), state))
         put(k_idle, rest, state, end)
         state = end
     shared = np.zeros((n_c, HALF), dtype=bool)
