@@ -48,6 +48,9 @@ class Check:
     sensitivity: list | None = None
     measured: dict | None = None  # {value, instrument, probe_point, date, mode}
     margin_k: float | None = None  # temperature checks: allowed − stress [K]
+    # capped quantities (life): True when ``stress`` is the model's cap (schema.LIFE_CAP),
+    # the computed value being larger; None on every other quantity (left out of as_dict)
+    capped: bool | None = None
 
     def as_dict(self) -> dict:
         out = {k: getattr(self, k) for k in (
@@ -63,10 +66,24 @@ class Check:
             out["measured"] = self.measured
         if self.margin_k is not None:
             out["margin_k"] = self.margin_k
+        if self.capped is not None:
+            out["capped"] = self.capped
         return out
 
 
 TEMPERATURE_QUANTITIES = ("t_j", "t_hotspot")
+# Quantities whose model is credible only up to a cap [SI]: a value at the cap is
+# reported with ``capped = True`` and shown as "> 15 years".
+CAPS = {"life": schema.LIFE_CAP}
+
+
+def is_capped(quantity: str, value) -> bool | None:
+    """True where ``value`` [SI] of ``quantity`` is at its cap, False below it, None
+    for a quantity without a cap or an unknown value."""
+    cap = CAPS.get(quantity)
+    if cap is None or value is None or not np.isfinite(value):
+        return None
+    return bool(value >= cap * (1 - 1e-9))
 
 
 class _RatedAt:
@@ -88,7 +105,15 @@ def check_stress(stress, policy, corners, temperatures=None) -> Check:
 
     ``temperatures`` maps a temperature basis ("ambient", "device") to an (N,) array
     [degC] over all corners; needed only by ``factor_vs_temperature`` rules.
+    A capped quantity (``CAPS``) gets ``capped``.
     """
+    check = _check_stress(stress, policy, corners, temperatures)
+    if check.quantity in CAPS:
+        check.capped = bool(is_capped(check.quantity, check.stress))
+    return check
+
+
+def _check_stress(stress, policy, corners, temperatures=None) -> Check:
     comp, part, q = stress.component, stress.component.part, stress.quantity
     base = dict(ref=stress.ref, role=comp.role, part=part.id, kind=part.kind, quantity=q,
                 unit=schema.QUANTITIES[q].unit)
@@ -117,10 +142,14 @@ def check_stress(stress, policy, corners, temperatures=None) -> Check:
         bad = idx[np.isposinf(values)][0]
         return empty("fail", "thermal runaway: the electro-thermal loop does not converge",
                      rules[0] if rules else None, corner=corners.ids[bad])
-    worst = int(np.argmax(values))
+    more = q in schema.MORE_IS_BETTER  # the worst corner has the lowest value
+    worst = int(np.argmin(values) if more else np.argmax(values))
     if not rules:
         return empty("info", "no rule of the policy covers this quantity", None,
                      _f(values[worst]), corners.ids[idx[worst]])
+    if more:
+        return _check_minimum(base, stress, rules, values, idx, kinds, corners, policy,
+                              empty, with_note)
 
     def temps(rule):
         if rule.curve is None:
@@ -209,6 +238,61 @@ def check_stress(stress, policy, corners, temperatures=None) -> Check:
                  rating_needed=needed, margin_k=margin)
 
 
+def _check_minimum(base, stress, rules, values, idx, kinds, corners, policy, empty,
+                   with_note):
+    """A quantity where more is better (life) under ``minimum`` rules.
+
+    allowed = the strictest (largest) minimum of the rules applying at each corner;
+    ratio = allowed / value, so above 1 fails as everywhere. ``rating_needed`` is the
+    rating (rated life at t_max) times the worst ratio: life is proportional to its
+    rating below the cap, so that rating just passes (an upper bound where the life
+    shown is the cap). No rating passes when the minimum is above the cap.
+    """
+    part, q = stress.component.part, stress.quantity
+    worst = int(np.argmin(values))
+    bound = [r for r in rules if r.minimum is not None]
+    if not bound:
+        keys = sorted({r.minimum_from for r in rules if r.minimum_from})
+        return empty("info", f"the design gives no [operating] {', '.join(keys)}: {q} is "
+                     f"information only (rule '{rules[0].id}' compares with it)", None,
+                     _f(values[worst]), corners.ids[idx[worst]])
+    allowed = np.full(values.shape, np.nan)
+    governing = np.full(values.shape, -1)
+    for j, r in enumerate(bound):
+        mask = np.ones(values.shape, bool) if r.stress_kinds is None \
+            else np.isin(kinds, r.stress_kinds)
+        take = mask & (np.isnan(allowed) | (r.minimum > allowed))
+        allowed = np.where(take, r.minimum, allowed)
+        governing = np.where(take, j, governing)
+    covered = ~np.isnan(allowed)
+    if not covered.any():
+        return empty("info", "no rule for these stress kinds", None,
+                     _f(values[worst]), corners.ids[idx[worst]])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = np.where(covered, np.where(values > 0, allowed / np.where(values > 0, values,
+                                                                          1), np.inf),
+                         -np.inf)
+    g = int(np.argmax(ratio))
+    rule = bound[int(governing[g])]
+    rating = part.ratings.get(rule.rating_key) if rule.rating_key else None
+    notes, needed = [], None
+    cap = CAPS.get(q)
+    if cap is not None and np.nanmax(allowed) > cap:
+        notes.append(f"no {rule.rating_key} rating passes: the minimum is beyond the "
+                     f"{schema.LIFE_CAP_YEARS}-year cap of the life model")
+    elif rating is not None and np.isfinite(ratio[g]):
+        needed = _f(rating * ratio[g])
+    if is_capped(q, values[g]):
+        notes.append(f"the computed {q} is beyond the model's credible range: shown as "
+                     f"the {schema.LIFE_CAP_YEARS}-year cap")
+    return Check(**base, stress=_f(values[g]), corner=corners.ids[idx[g]],
+                 rating=_f(rating) if rating is not None else None,
+                 rating_key=rule.rating_key, allowed=_f(allowed[g]), ratio=_f(ratio[g]),
+                 status=status_of(ratio[g], policy), rule=rule.id,
+                 rule_source=rule.source, stress_kind=str(kinds[g]),
+                 note=with_note("; ".join(notes)), rating_needed=needed)
+
+
 def _rating_needed(rules, key, values, applies, temps):
     """(rating_needed, note): the smallest ``key`` rating with which every rule on that
     rating passes at every corner it applies to [SI], by each rule's inverse (rules.py
@@ -247,7 +331,11 @@ def governing_rule(rules, part, kind: str):
     if any(r.curve is not None for r in applying):
         return None
     applying = [r for r in applying if r.allowed(part) is not None]
-    return min(applying, key=lambda r: r.allowed(part)) if applying else None
+    if not applying:
+        return None
+    if all(r.is_minimum for r in applying):  # more is better: the largest minimum
+        return max(applying, key=lambda r: r.allowed(part))
+    return min(applying, key=lambda r: r.allowed(part))
 
 
 def status_of(ratio: float, policy) -> str:
@@ -258,6 +346,7 @@ def status_of(ratio: float, policy) -> str:
 
 
 def run_checks(evaluation, policy) -> list[Check]:
+    policy = policy.bind(evaluation.design)  # minimum = "required_life" and the like
     runaway = runaway_by_ref(evaluation)
     corners = evaluation.corners
     ambient = (corners["ambient_temperature"] if "ambient_temperature" in corners.columns

@@ -118,7 +118,7 @@ def run_check(design_path: Path, parts, policy_name, out_dir: Path, *, date=None
     out_dir = Path(out_dir)
     design = load_design(design_path, parts)
     design, bom_record = substitute(design, parts, bom, swaps)
-    policy = load_policy(policy_name)
+    policy = load_policy(policy_name).bind(design)  # minimum = "required_life" rules
     _refuse_inputs_as_output(out_dir, design, policy)
     check_out_path(out_dir)
     check_output(out_dir)  # a foreign file in the way: refuse before any work is done

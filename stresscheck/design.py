@@ -79,6 +79,9 @@ class Design:
         kind, value = self.minimum_load
         return v_out / value if kind == "resistance" else 0.0 * v_out + value
     heatsinks: dict[str, float] = field(default_factory=dict)  # id -> sink to ambient [K/W]
+    # [operating] required_life: the service life the capacitors must reach [s]; None
+    # when not given (a policy rule ``minimum = "required_life"`` then leaves life info)
+    required_life: float | None = None
     gate_voltage: float | None = None  # [V] gate drive; None: per technology default
     # overlap transition times: "times" (sheet t_rise/t_fall) or "gate-charge"
     overlap_method: str = "times"
@@ -97,7 +100,7 @@ CONVERTER_KEYS = ("name", "topology", "rectifier", "modulation", "switching_freq
                   "overlap_method", "gate_resistance")
 OPERATING_KEYS = ("input", "input_voltage", "input_surge", "output_voltage", "output_current",
                   "current_limit", "ambient_temperature", "line_frequency", "hold_up_time",
-                  "hold_up_voltage", "minimum_load")
+                  "hold_up_voltage", "minimum_load", "required_life")
 COMPONENT_KEYS = ("ref", "refs", "role", "part", "r_th_ca", "r_th_ja", "parallel", "note",
                   "heatsink", "r_th_cs")
 HEATSINK_KEYS = ("id", "r_th", "note")
@@ -213,6 +216,7 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
     design.overshoot = load_overshoot(conv, path)
     design.gate_voltage = scalar(conv, "gate_voltage", "voltage", "converter.")
     _load_gate_drive(design, conv, scalar)
+    design.required_life = scalar(op, "required_life", "time", "operating.")
     library = PartLibrary(part_folders(path, parts_dirs))
     design.heatsinks = _load_heatsinks(doc, path)
     design.components = _load_components(doc, path, library)

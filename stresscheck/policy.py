@@ -11,7 +11,7 @@ kind, technology filter and quantity, and add the rest.
 from __future__ import annotations
 
 import hashlib
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from importlib import resources
 from pathlib import Path
 
@@ -28,7 +28,7 @@ POLICY_KEYS = ("schema", "name", "title", "version", "source", "description",
                "marginal_above", "extends", "rules")
 RULE_KEYS = ("id", "kind", "technology", "quantity", "rating", "factor", "margin", "limit",
              "factor_vs_temperature", "temperature", "stress_kind", "source", "document",
-             "table", "note", "from_memory")
+             "table", "note", "from_memory", "minimum")
 MAX_EXTENDS = 8  # depth of an extends chain
 
 
@@ -49,6 +49,16 @@ class Policy:
     def rules_for(self, part, quantity: str) -> list[Rule]:
         return [r for r in self.rules if r.matches(part, quantity)]
 
+    def bind(self, design) -> "Policy":
+        """This policy with every ``minimum = "<design key>"`` rule given the design's
+        value of that key (e.g. ``[operating] required_life`` [s]); a design without
+        the key leaves the rule unbound (its rows are info, with the reason)."""
+        if not any(r.minimum_from for r in self.rules):
+            return self
+        rules = [replace(r, minimum=getattr(design, r.minimum_from, None))
+                 if r.minimum_from else r for r in self.rules]
+        return replace(self, rules=rules)
+
     @property
     def from_memory(self) -> bool:
         """True when any rule's value is from memory (not read in a published copy)."""
@@ -59,18 +69,18 @@ class Policy:
 
         ``"<kind>.<quantity>"`` where no rule covers the quantity for any technology;
         ``"<kind>.<quantity>[tech,...]"`` where only the technologies listed are left
-        uncovered. Capacitor ``life`` is left out: no policy may hold a rule on it yet.
+        uncovered. A quantity that exists only for some technologies (capacitor ``life``,
+        ``t_rise``: ``schema.QUANTITY_TECHNOLOGIES``) counts only those.
         """
         out = []
         for kind in schema.KINDS:
             for q in schema.KIND_QUANTITIES[kind]:
-                if q == "life":
-                    continue
                 rules = [r for r in self.rules if r.kind == kind and r.quantity == q]
                 if any(r.technology is None for r in rules):
                     continue
                 covered = {t for r in rules for t in r.technology}
-                left = [t for t in schema.TECHNOLOGIES[kind] if t not in covered]
+                techs = schema.QUANTITY_TECHNOLOGIES.get((kind, q), schema.TECHNOLOGIES[kind])
+                left = [t for t in techs if t not in covered]
                 if not rules:
                     out.append(f"{kind}.{q}")
                 elif left:
@@ -230,9 +240,6 @@ def _read_rule(raw: dict, i: int, path) -> Rule:
         raise InputError(path, f"{key}.id", "expected one line of printable text, 1 to 100 "
                          "characters")
     named = f"rule '{rule_id}'"
-    if quantity == "life":
-        raise InputError(path, f"{key}.quantity", "rules on capacitor life (a required "
-                         "minimum life) are not supported yet; life is reported as info")
     source = require_str(raw, "source", path, f"{key}.")
     if not source.strip():
         raise InputError(path, f"{key}.source", "every rule must say where it comes from")
@@ -274,6 +281,17 @@ def _read_rule(raw: dict, i: int, path) -> Rule:
         if qdim != "temperature" and limit <= 0:
             raise InputError(path, f"{key}.limit", "must be greater than zero (a stress "
                              "magnitude)")
+    minimum, minimum_from = _minimum(raw, quantity, path, key, named)
+    if minimum is not None or minimum_from is not None:
+        other = [k for k in ("rating", "factor", "margin", "limit", "factor_vs_temperature")
+                 if k in raw]
+        if other:
+            raise InputError(path, f"{key}.{other[0]}", f"{named}: {quantity} is a quantity "
+                             "where more is better; its rule gives only minimum (no "
+                             "rating, factor, margin or limit)")
+        return Rule(rule_id, kind, quantity, source, technology=tech, stress_kinds=kinds,
+                    document=document, table=table, note=note, from_memory=from_memory,
+                    minimum=minimum, minimum_from=minimum_from)
     shaped = factor is not None or margin is not None or curve is not None
     if rating is None and shaped:
         which = ("factor" if factor is not None else "margin" if margin is not None
@@ -295,6 +313,36 @@ def _read_rule(raw: dict, i: int, path) -> Rule:
     return Rule(rule_id, kind, quantity, source, rating, factor, margin, limit, tech, kinds,
                 curve=curve, temperature=temperature or "ambient", document=document,
                 table=table, note=note, from_memory=from_memory)
+
+
+def _minimum(raw, quantity, path, key, named):
+    """(minimum [SI] or None, design key or None) of a rule.
+
+    A quantity where more is better (``schema.MORE_IS_BETTER``) takes only ``minimum``:
+    a value of the quantity's dimension (``"50000 h"``) or the name of the design key
+    that gives it (``"required_life"``, ``schema.DESIGN_MINIMUMS``). Every other
+    quantity refuses ``minimum``.
+    """
+    if quantity not in schema.MORE_IS_BETTER:
+        if "minimum" in raw:
+            raise InputError(path, f"{key}.minimum", f"{named}: minimum applies only to "
+                             "quantities where more is better (" +
+                             ", ".join(schema.MORE_IS_BETTER) + f"); {quantity} takes "
+                             "rating with factor or margin, or limit")
+        return None, None
+    design_key = schema.DESIGN_MINIMUMS[quantity]
+    if "minimum" not in raw:
+        raise InputError(path, f"{key}.minimum", f"{named}: {quantity} is a quantity where "
+                         f"more is better; give minimum = \"{design_key}\" (the design's "
+                         "[operating] value) or a fixed value such as minimum = "
+                         "\"50000 h\"")
+    value = raw["minimum"]
+    if value == design_key:
+        return None, design_key
+    minimum = parse_quantity(value, _quantity_dimension(quantity), path, f"{key}.minimum")
+    if not minimum > 0:
+        raise InputError(path, f"{key}.minimum", f"{named}: must be greater than zero")
+    return minimum, None
 
 
 def _factor(value, path, key, named) -> float:
@@ -354,7 +402,8 @@ def _str_list(raw, name, path, key, choices):
 
 
 _QUANTITY_DIMENSIONS = {"V": "voltage", "A": "current", "W": "power", "degC": "temperature",
-                        "T": "flux_density", "s": "time", "1": "fraction"}
+                        "T": "flux_density", "s": "time", "1": "fraction",
+                        "K": "temperature_difference"}
 
 
 def _quantity_dimension(quantity: str) -> str:

@@ -8,7 +8,11 @@ Forms (CONTRACT.md, "Derating policy" and its extensions):
   where the sheet gives it (``NATURAL_RATINGS``);
 - a factor that is a piecewise-linear function of temperature
   (``factor_vs_temperature``), the temperature being the corner's ambient or the part's
-  own computed temperature (junction or hot spot), as the rule's ``temperature`` says.
+  own computed temperature (junction or hot spot), as the rule's ``temperature`` says;
+- a minimum (``minimum``), the one form of a quantity where more is better
+  (``schema.MORE_IS_BETTER``: capacitor life): a fixed value or a design key
+  (``minimum = "required_life"``, bound to the design's value by ``Policy.bind``). The
+  ratio stays "stress over allowed": minimum / value, above 1 fails.
 
 No form can allow a stress beyond the absolute maximum rating: factors above 1 are
 refused when a policy is read (policy.py).
@@ -30,7 +34,7 @@ NATURAL_RATINGS = {
     ("diode", "v_reverse_peak"): "v_rrm", ("diode", "i_avg"): "i_f_avg",
     ("diode", "t_j"): "t_j_max",
     ("capacitor", "v_peak"): "v_rated", ("capacitor", "i_ripple_rms"): "i_ripple",
-    ("capacitor", "t_hotspot"): "t_max",
+    ("capacitor", "t_hotspot"): "t_max", ("capacitor", "life"): "life",
     ("inductor", "i_peak"): "i_sat", ("inductor", "i_rms"): "i_rms",
     ("inductor", "t_hotspot"): "t_max",
     ("transformer", "b_peak"): "b_sat", ("transformer", "t_hotspot"): "t_max",
@@ -55,6 +59,13 @@ class Rule:
     table: str | None = None
     note: str | None = None
     from_memory: bool = False
+    minimum: float | None = None  # [SI] the least value allowed (more-is-better form)
+    minimum_from: str | None = None  # design key that gives ``minimum`` (Policy.bind)
+
+    @property
+    def is_minimum(self) -> bool:
+        """True for the more-is-better form (``minimum``, fixed or from the design)."""
+        return self.minimum is not None or self.minimum_from is not None
 
     def matches(self, part, quantity: str) -> bool:
         return (self.kind == part.kind and self.quantity == quantity
@@ -91,6 +102,8 @@ class Rule:
         Scalar for every form but ``factor_vs_temperature``, which needs ``temperature``
         [degC] (array over corners) and returns an array.
         """
+        if self.is_minimum:
+            return self.minimum  # None while a design key is not bound or not given
         if self.rating is None:
             natural = part.ratings.get(self.rating_key) if self.rating_key else None
             return self.limit if natural is None else min(self.limit, natural)
@@ -138,6 +151,13 @@ class Rule:
 
     def form(self) -> str:
         """The rule's form in words: ``0.8 × v_ds``, ``t_j_max − 25 K, at most 125 degC``."""
+        if self.is_minimum:
+            if self.minimum_from is not None:
+                text = f"at least the design's [operating] {self.minimum_from}"
+                if self.minimum is not None:
+                    text += f" ({_num(self.minimum)} {_unit(self.quantity)})"
+                return text
+            return f"at least {_num(self.minimum)} {_unit(self.quantity)}"
         if self.rating is None:
             cap = f" (at most {self.rating_key})" if self.rating_key else ""
             return f"{_num(self.limit)} {_unit(self.quantity)}{cap}"
@@ -156,6 +176,12 @@ class Rule:
         return text
 
     def as_dict(self) -> dict:
+        out = self._as_dict()
+        if self.is_minimum:
+            out.update(minimum=self.minimum, minimum_from=self.minimum_from)
+        return out
+
+    def _as_dict(self) -> dict:
         return {"id": self.id, "kind": self.kind, "quantity": self.quantity,
                 "rating": self.rating, "factor": self.factor, "margin": self.margin,
                 "limit": self.limit,

@@ -12,7 +12,8 @@ The samples go through the same ``engine.run`` as the corners, in chunks of at m
 ``Generator(PCG64(SeedSequence(seed, spawn_key=(c,))))``: the same seed gives the same
 samples on any machine.
 
-Per check a ``Tally`` keeps, over all chunks, the count, the count above ``allowed``,
+Per check a ``Tally`` keeps, over all chunks, the count, the count beyond ``allowed``
+(above it; below it for a minimum, where more is better),
 the exact maximum (and the sample that gives it) and a histogram of ``FINE_BINS`` bins
 from which p50, p95 and p99 are read (within one bin width: (range of the first
 chunk, widened by half)/4096, far below the sampling error of a percentile).
@@ -24,8 +25,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .checks import governing_rule, status_of
+from .checks import governing_rule, is_capped, status_of
 from .corners import CornerSet, input_spreads
+from .schema import MORE_IS_BETTER
 
 CHUNK = 8192  # samples per engine call
 FINE_BINS = 4096  # histogram bins per check for the percentiles
@@ -80,10 +82,16 @@ def sample_chunk(spreads: dict, units: dict, start: int, n: int,
 
 
 class Tally:
-    """Running statistics of one check's stress over every chunk of samples."""
+    """Running statistics of one check's stress over every chunk of samples.
 
-    def __init__(self, allowed: float | None):
+    ``lower_worse`` for a quantity where more is better (life): ``allowed`` is then a
+    minimum, a sample below it counts in ``p_exceed`` and the worst sample is the
+    lowest (``worst_row``, ``min``).
+    """
+
+    def __init__(self, allowed: float | None, lower_worse: bool = False):
         self.allowed = allowed  # [SI] for steady points, None without a rule or rating
+        self.lower_worse = lower_worse
         self.n = 0
         self.not_computed = 0
         self.runaway = 0
@@ -100,15 +108,16 @@ class Tally:
         self.not_computed += int(np.isnan(values).sum())
         self.runaway += int(np.isposinf(values).sum())
         if self.allowed is not None:
-            self.exceed += int((values > self.allowed).sum())  # runaway counts, NaN not
+            beyond = values < self.allowed if self.lower_worse else values > self.allowed
+            self.exceed += int(beyond.sum())  # runaway counts, NaN not
         idx = np.flatnonzero(np.isfinite(values))
         if idx.size == 0:
             return
         v = values[idx]
-        j = int(np.argmax(v))
-        if v[j] > self.max:
-            self.max = float(v[j])
+        j = int(np.argmin(v) if self.lower_worse else np.argmax(v))
+        if (v[j] < self.min) if self.lower_worse else (v[j] > self.max):
             self.worst_row = corners.row(int(idx[j]))
+        self.max = max(self.max, float(v.max()))
         self.min = min(self.min, float(v.min()))
         if self.lo is None:  # the first chunk sets the bins, widened by half its range
             lo, hi = float(v.min()), float(v.max())
@@ -162,6 +171,8 @@ class Tally:
                             else None)}
         if finite:
             out["histogram"] = self.histogram()
+        if self.lower_worse and finite:
+            out["min"] = self.min  # the worst sample where more is better
         if self.not_computed:
             out["not_computed"] = self.not_computed
         if self.runaway:
@@ -222,6 +233,7 @@ def run_monte_carlo(design, checks: list, policy, samples: int, seed: int = 0,
     """
     from .engine import run  # the engine imports nothing from here
 
+    policy = policy.bind(design)  # minimum = "required_life" and the like
     spreads, units = input_spreads(design)
     tallies: list[Tally] | None = None
     rules: list = []
@@ -234,7 +246,8 @@ def run_monte_carlo(design, checks: list, policy, samples: int, seed: int = 0,
             if keys != [(ch.ref, ch.quantity) for ch in checks]:
                 raise RuntimeError("samples and corners gave different stress lists")
             rules = [steady_allowed(s.component, s.quantity, policy) for s in ev.stresses]
-            tallies = [Tally(allowed) for _, allowed, _ in rules]
+            tallies = [Tally(allowed, s.quantity in MORE_IS_BETTER)
+                       for s, (_, allowed, _) in zip(ev.stresses, rules)]
         for tally, stress in zip(tallies, ev.stresses):
             tally.add(stress.values, corners)
         if progress is not None:
@@ -246,6 +259,8 @@ def run_monte_carlo(design, checks: list, policy, samples: int, seed: int = 0,
         check.monte_carlo = tally.summary()
         if _raise(check, tally, steady, policy):
             worst[tally.worst_row["id"]] = tally.worst_row
+            if check.capped is not None:
+                check.capped = bool(is_capped(check.quantity, check.stress))
         if tally.runaway and check.status != "fail":
             check.status, check.method = "fail", "monte-carlo"
             text = (f"thermal runaway at {tally.runaway} of {tally.n} Monte Carlo samples "
@@ -264,20 +279,25 @@ def _raise(check, tally: Tally, steady, policy) -> bool:
     if tally.worst_row is None or check.stress is None:
         return False
     unit = check.unit
+    low = tally.lower_worse
+    value = tally.min if low else tally.max  # the worst sample
     if tally.allowed is not None and tally.allowed > 0 and check.ratio is not None:
-        ratio = tally.max / tally.allowed
+        if low and not value > 0:
+            return False
+        ratio = tally.allowed / value if low else value / tally.allowed
         if ratio - check.ratio <= RAISE_TOLERANCE * abs(check.ratio):
             return False
         check.ratio, check.allowed = ratio, tally.allowed
         check.rule, check.rule_source = rule.id, rule.source
         check.rating, check.rating_key = rating, rule.rating_key
         check.status = status_of(ratio, policy)
-    elif tally.max - check.stress <= RAISE_TOLERANCE * abs(check.stress):
+    elif ((check.stress - value) if low else (value - check.stress)) \
+            <= RAISE_TOLERANCE * abs(check.stress):
         return False
     before = check.stress
-    check.stress, check.corner = tally.max, tally.worst_row["id"]
+    check.stress, check.corner = value, tally.worst_row["id"]
     check.stress_kind, check.method = "steady", "monte-carlo"
-    text = (f"raised by Monte Carlo: sample {check.corner} gives {tally.max:.4g} {unit}, "
+    text = (f"raised by Monte Carlo: sample {check.corner} gives {value:.4g} {unit}, "
             f"beyond the corner worst case {before:.4g} {unit} (the stress is not "
             "monotonic in its inputs)")
     check.note = f"{check.note}; {text}" if check.note else text

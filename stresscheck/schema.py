@@ -169,6 +169,8 @@ QUANTITIES: dict[str, Quantity] = {
     "t_hotspot": Quantity("degC", "thermal", "hot-spot temperature"),
     "b_peak": Quantity("T", "voltage", "peak flux density in the core"),
     "life": Quantity("s", "thermal", "expected life at the hot-spot temperature"),
+    "t_rise": Quantity("K", "thermal", "self-heating of a ceramic capacitor: its ESR "
+                       "loss times its thermal resistance"),
     "i_ripple_rms_lf": Quantity("A", "current", "line-frequency part of the capacitor's "
                                 "rms current (local averages over the line cycle)"),
     "i_ripple_rms_hf": Quantity("A", "current", "switching-frequency part of the "
@@ -182,7 +184,7 @@ KIND_QUANTITIES = {
     "mosfet": ("v_peak", "i_peak", "i_rms", "i_avg", "p_loss", "t_j"),
     "diode": ("v_reverse_peak", "i_avg", "i_rms", "i_peak", "p_loss", "t_j"),
     "capacitor": ("v_peak", "i_ripple_rms", "i_ripple_rms_lf", "i_ripple_rms_hf", "hold_up",
-                  "t_hotspot", "life"),
+                  "t_hotspot", "t_rise", "life"),
     "inductor": ("i_peak", "i_rms", "t_hotspot"),
     "transformer": ("b_peak", "t_hotspot"),
 }
@@ -192,6 +194,24 @@ STATUSES = ("fail", "not-computed", "unrated", "marginal", "pass", "info", "waiv
 
 # Capacitor technologies for which a life figure is computed (wear-out by electrolyte).
 LIFE_TECHNOLOGIES = ("al-electrolytic", "al-polymer")
+# Capacitor technologies whose self-heating ``t_rise`` is computed (makers limit it to
+# about 20 K: common practice, TDK FAQ S18 in docs/derating-sources.md section 11).
+CERAMIC_TECHNOLOGIES = ("ceramic-class1", "ceramic-class2")
+# Quantities that exist only for some technologies of their kind.
+QUANTITY_TECHNOLOGIES = {("capacitor", "life"): LIFE_TECHNOLOGIES,
+                         ("capacitor", "t_rise"): CERAMIC_TECHNOLOGIES}
+# Quantities where more is better (a life): a rule gives a minimum, the ratio is
+# minimum / stress and the worst corner is the one with the lowest value.
+MORE_IS_BETTER = ("life",)
+# Years beyond which an electrolytic life estimate is not credible: seal wear and
+# electrolyte loss through the seal end the life whatever the temperature, so makers cap
+# their estimates at about 15 years (common practice, from memory). A computed life
+# above is reported as this cap with ``capped = true`` ("> 15 years").
+LIFE_CAP_YEARS = 15
+YEAR = 365.25 * 24 * 3600.0  # [s] a Julian year
+LIFE_CAP = LIFE_CAP_YEARS * YEAR  # [s]
+# Design keys a ``minimum`` rule may name instead of a fixed value, per quantity.
+DESIGN_MINIMUMS = {"life": "required_life"}
 
 
 @dataclass(frozen=True)
@@ -232,6 +252,9 @@ DESIGN_BOUNDS: dict[str, Bound] = {
     "operating.line_frequency": Bound(10.0, 2000.0, "Hz", "utility lines run at 50 or "
                                       "60 Hz, aircraft at 400 Hz or 360-800 Hz; check the "
                                       "unit prefix"),
+    "operating.required_life": Bound(3600.0, 100 * 365.25 * 24 * 3600.0, "s", "a service "
+                                     "life between an hour and a century; check the "
+                                     "unit (\"50000 h\", \"10 years\")"),
     "operating.hold_up_time": Bound(None, 10.0, "s", "bulk capacitors hold a bus up for "
                                     "milliseconds; check the unit prefix"),
 }

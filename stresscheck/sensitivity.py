@@ -27,6 +27,7 @@ import numpy as np
 
 from .corners import CornerSet, input_spreads
 from .errors import RegulationError
+from .schema import MORE_IS_BETTER
 
 STEP = 1e-3  # central-difference step, as a fraction of each input's range
 KELVIN = 273.15  # [K] at 0 degC
@@ -107,6 +108,8 @@ def annotate(design, checks: list, policy) -> str | None:
 
     ``rss = {nominal, value, ratio}``: the stress at the nominal point, the RSS
     estimate and its ratio to the allowed value of a steady point (None without one).
+    For a quantity where more is better (life) the estimate is y(x₀) − √(Σ c_j²) and
+    the ratio minimum / estimate.
 
     Returns
     -------
@@ -116,6 +119,7 @@ def annotate(design, checks: list, policy) -> str | None:
     from .engine import run
     from .sampling import steady_allowed
 
+    policy = policy.bind(design)
     spreads, units = input_spreads(design)
     corners, names, steps = perturbation_corners(spreads, units)
     try:
@@ -132,7 +136,11 @@ def annotate(design, checks: list, policy) -> str | None:
             continue
         y0, value, rows = found
         _, allowed, _ = steady_allowed(stress.component, stress.quantity, policy)
-        ratio = value / allowed if allowed is not None and allowed > 0 else None
+        if stress.quantity in MORE_IS_BETTER:  # the worst is below the nominal (life)
+            value = 2 * y0 - value
+            ratio = allowed / value if allowed is not None and value > 0 else None
+        else:
+            ratio = value / allowed if allowed is not None and allowed > 0 else None
         check.rss = {"nominal": y0, "value": value, "ratio": ratio}
         check.sensitivity = rows
     return None

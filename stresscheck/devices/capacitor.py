@@ -10,7 +10,7 @@ from ..topologies import CapacitorBank, StageResult
 from .base import DeviceModel, Losses, Row, StageParts, Temperature
 
 LIFE_STEP = 10.0  # [K] per halving of electrolytic life
-LIFE_CAP = 15 * 365.25 * 24 * 3600.0  # [s] 15 years: beyond is theoretical (common practice)
+LIFE_CAP = schema.LIFE_CAP  # [s] 15 years: beyond is not credible (common practice)
 
 
 def capacitor_life(technology, life_rated, t_max, t_hotspot):
@@ -100,6 +100,31 @@ class Capacitor(DeviceModel):
         c_min = self.part.spread("capacitance").min
         return np.asarray(needed, dtype=float) / (c_min * self.devices)
 
+    def self_heating_row(self, losses: Losses) -> Row:
+        """``t_rise``: a ceramic capacitor's self-heating ΔT = I_rms²·ESR·R_th [K], the
+        rise of the part above its surroundings that makers limit to about 20 K (TDK
+        capacitor FAQ, docs/derating-sources.md section 11, S18; common practice).
+
+        Parameters
+        ----------
+        losses : dict
+            ``esr``: ESR·I_rms² of one device [W], (N,), absent without an ESR.
+
+        Returns
+        -------
+        Row
+            ΔT [K], (N,); NaN with the reason where the ESR or the thermal resistance
+            (design ``r_th_ja``/``r_th_ca`` or the sheet's ``r_th``) is missing.
+        """
+        missing = [name for name, absent in (("ESR (electrical.esr)", "esr" not in losses),
+                                             ("r_th (design r_th_ca or r_th_ja, or the "
+                                              "sheet's thermal.r_th)", self.r_th is None))
+                   if absent]
+        if missing:
+            return Row("t_rise", np.full(self.size, np.nan),
+                       "self-heating needs " + " and ".join(missing))
+        return Row("t_rise", np.asarray(losses["esr"], dtype=float) * self.r_th)
+
     def stresses(self, result: StageResult, losses: Losses,
                  temperature: Temperature) -> list[Row]:
         rows = [Row("v_peak", result.v_block[self.key]),
@@ -110,6 +135,8 @@ class Capacitor(DeviceModel):
         if "esr" not in losses:
             temperature = Temperature(np.full(self.size, np.nan), "no ESR on the part sheet")
         rows.append(Row("t_hotspot", temperature.values, temperature.reason))
+        if self.part.technology in schema.CERAMIC_TECHNOLOGIES:
+            rows.append(self.self_heating_row(losses))
         if self.part.technology in schema.LIFE_TECHNOLOGIES:
             r = self.part.ratings
             if not temperature.computed or "life" not in r or "t_max" not in r:
