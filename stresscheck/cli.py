@@ -282,11 +282,14 @@ def _print_waived(results, limit=12):
 
 
 def _print_findings(results, limit=12):
+    from .report.view import format_stress
     order = {"fail": 0, "not-computed": 1, "unrated": 2, "marginal": 3}
     rows = [c for c in results["checks"] if c["status"] in order]
     rows.sort(key=lambda c: (order[c["status"]], -(c["ratio"] or 0)))
     for c in rows[:limit]:
         ratio = f"{100 * c['ratio']:.1f} % of allowed" if c["ratio"] is not None else c["note"]
+        if c["quantity"] == "life" and c.get("stress") is not None:
+            ratio += f" (life {format_stress(c)})"  # "> 15 years" where capped
         print(f"  {c['status'].upper():12s} {c['ref']:6s} {c['quantity']:15s} {ratio}"
               f"  (corner {c['corner']})")
     if len(rows) > limit:

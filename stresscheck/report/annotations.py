@@ -83,10 +83,11 @@ def annotations(check: dict, results: dict, spikes: bool | None = None) -> list[
                     "text": f"a part would need a rating of {value(check['rating_needed'])}"})
     mc = check.get("monte_carlo")
     if isinstance(mc, dict):
-        parts = [f"{k} {value(mc.get(k))}" for k in ("p50", "p95", "p99", "max")
-                 if _finite(mc.get(k))]
+        keys = ("min", "p50", "max") if "min" in mc else ("p50", "p95", "p99", "max")
+        parts = [f"{k} {value(mc.get(k))}" for k in keys if _finite(mc.get(k))]
         if _finite(mc.get("p_exceed")):
-            parts.append(f"P(exceed) {_pct(mc['p_exceed'])}")
+            below = " below the minimum" if "min" in mc else ""
+            parts.append(f"P(exceed) {_pct(mc['p_exceed'])}{below}")
         n = mc.get("samples")
         out.append({"tag": "Monte Carlo", "cls": "mc",
                     "text": f"Monte Carlo{f' ({n} samples)' if n else ''}: "

@@ -17,7 +17,7 @@ from . import html_blocks
 from .annotations import annotations, spikes_left_out
 from .view import (DASH, FINDING_STATUSES, OTHER_COLOUR, ROLE_ORDER, STATUS_COLOURS,
                    STATUS_ORDER, _ratio_key, _status_rank, corner_columns, count_statuses,
-                   format_number, format_ratio, format_value, governing_corner_ids,
+                   format_number, format_ratio, format_stress, format_value, governing_corner_ids,
                    policy_label, revision, sort_findings, status_class, tool_version,
                    unit_label)
 
@@ -58,7 +58,7 @@ def _check_view(check: dict, results: dict | None = None, spikes: bool = False) 
         "quantity": _text(quantity),
         "quantity_desc": _quantity_desc(quantity),
         "stress_kind": stress_kind if stress_kind and stress_kind != "steady" else "",
-        "stress": format_value(check.get("stress"), unit, quantity),
+        "stress": format_stress(check),
         "allowed": format_value(check.get("allowed"), unit, quantity),
         "rating": rating_text,
         "ratio": format_ratio(check.get("ratio")),

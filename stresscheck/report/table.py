@@ -3,7 +3,9 @@ and in checks.csv.
 
 Numbers are the results' values in the unit of the row's ``unit`` column (capacitor life
 in hours); ``ratio`` is stress / allowed as a fraction (the spreadsheet formats it as
-percent). ``margin`` is allowed − stress in the row's unit. Columns for fields that other
+percent). ``margin`` is allowed − stress in the row's unit (for a quantity where more is
+better, capacitor life, stress − minimum: positive passes on every row). A value at its
+model's cap (``capped``) is the text "> 15 years" in the stress column. Columns for fields that other
 parts of the tool add (waivers, measured and simulated values, Monte Carlo percentiles,
 the rating a part would need) appear only when some check carries the field.
 """
@@ -14,7 +16,8 @@ import csv
 import io
 import math
 
-from .view import display_value
+from ..schema import MORE_IS_BETTER
+from .view import capped_text, display_value
 
 BASE_COLUMNS = (
     ("ref", "ref"), ("role", "role"), ("part", "part"), ("kind", "kind"),
@@ -78,6 +81,10 @@ def row_values(check: dict, run_id) -> dict:
     _, label = display_value(0.0, unit, quantity)
     stress, allowed = shown(check.get("stress")), shown(check.get("allowed"))
     margin = allowed - stress if stress is not None and allowed is not None else None
+    if quantity in MORE_IS_BETTER and margin is not None:
+        margin = -margin  # life: the value above its minimum
+    if check.get("capped") and stress is not None:
+        stress = capped_text(check["stress"])  # beyond the model's credible range
     mc, meas, sim, waiver = (_sub(check, f) for f in ("monte_carlo", "measured",
                                                        "simulated", "waiver"))
     row = {k: check.get(k) for k, _ in BASE_COLUMNS}

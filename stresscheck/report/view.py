@@ -8,6 +8,8 @@ from __future__ import annotations
 
 import math
 
+from ..schema import YEAR
+
 # Display order of statuses; the first four are "findings".
 STATUS_ORDER = ("fail", "not-computed", "unrated", "marginal", "pass", "info")
 FINDING_STATUSES = ("fail", "not-computed", "unrated", "marginal", "waived")
@@ -71,6 +73,23 @@ def display_value(value, unit: str | None, quantity: str | None = None):
             value = value / 3600.0
         return value, "h"
     return value, unit_label(unit)
+
+
+
+
+def capped_text(value) -> str:
+    """A value at its model's cap (``capped`` in results.json), as the report shows it:
+    473364000 s -> "> 15 years" (life beyond the credible range of the life model)."""
+    return f"> {value / YEAR:.0f} years"
+
+
+def format_stress(check: dict) -> str:
+    """A check's stress as the report shows it: "> 15 years" where ``capped``, else
+    ``format_value``."""
+    stress = check.get("stress")
+    if check.get("capped") and isinstance(stress, (int, float)):
+        return capped_text(stress)
+    return format_value(stress, check.get("unit"), check.get("quantity"))
 
 
 def _round_sig(x: float, digits: int) -> float:
