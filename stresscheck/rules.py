@@ -155,9 +155,9 @@ class Rule:
             if self.minimum_from is not None:
                 text = f"at least the design's [operating] {self.minimum_from}"
                 if self.minimum is not None:
-                    text += f" ({_num(self.minimum)} {_unit(self.quantity)})"
+                    text += f" ({self._value_text(self.minimum)})"
                 return text
-            return f"at least {_num(self.minimum)} {_unit(self.quantity)}"
+            return f"at least {self._value_text(self.minimum)}"
         if self.rating is None:
             cap = f" (at most {self.rating_key})" if self.rating_key else ""
             return f"{_num(self.limit)} {_unit(self.quantity)}{cap}"
@@ -174,6 +174,12 @@ class Rule:
         if self.limit is not None:
             text = f"{text}, at most {_num(self.limit)} {_unit(self.quantity)}"
         return text
+
+    def _value_text(self, value: float) -> str:
+        """A value of the rule's quantity in words; times (life) in hours."""
+        if _unit(self.quantity) == "s":
+            return f"{_num(value / 3600.0)} h"
+        return f"{_num(value)} {_unit(self.quantity)}"
 
     def as_dict(self) -> dict:
         out = self._as_dict()

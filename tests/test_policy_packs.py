@@ -19,15 +19,17 @@ CER = ("ceramic-class1", "ceramic-class2")
 
 
 def row(kind, tech, quantity, rating=None, factor=None, margin=None, limit=None,
-        curve=None, kinds=None, memory=False):
-    return (kind, frozenset(tech) if tech else None, quantity,
-            frozenset(kinds) if kinds else None, rating, factor, margin, limit, curve, memory)
+        curve=None, kinds=None, memory=False, minimum=None):
+    out = (kind, frozenset(tech) if tech else None, quantity,
+           frozenset(kinds) if kinds else None, rating, factor, margin, limit, curve, memory)
+    return out if minimum is None else out + (minimum,)
 
 
 def pack_rows(name):
     p = load_policy(name)
     return sorted((row(r.kind, r.technology, r.quantity, r.rating, r.factor, r.margin,
-                       r.limit, r.curve, r.stress_kinds, r.from_memory)
+                       r.limit, r.curve, r.stress_kinds, r.from_memory,
+                       r.minimum_from or r.minimum)
                    for r in p.rules), key=repr)
 
 
@@ -123,6 +125,14 @@ COMMERCIAL = [
         "t_hotspot", "t_max", margin=20.0),  # §7, §9 RAC
     row("capacitor", ("ceramic-class1", "ceramic-class2", "film"), "t_hotspot", "t_max",
         margin=10.0),  # §11, §12 RAC
+    # ceramic self-heating at most 20 K: TDK FAQ, allowable ripple = 20 degC
+    # self-heating (§11, S18; common practice)
+    row("capacitor", CER, "t_rise", limit=20.0),
+    # electrolytic life at least the design's required_life (§7 S20 life rule; the
+    # minimum is the design's own, so the rule adds no value of its own)
+    # (flagged from memory: the polymer x10-per-20 K rule, §8 MEMORY, and the 15-year cap)
+    row("capacitor", ("al-electrolytic", "al-polymer"), "life", memory=True,
+        minimum="required_life"),
     row("inductor", ALL, "i_peak", "i_sat", factor=0.8, memory=True),  # §16 magnetics
     row("inductor", ALL, "i_rms", "i_rms", factor=1.0),  # the rating itself
     row("inductor", ALL, "t_hotspot", "t_max", margin=20.0, memory=True),  # §13 memory
