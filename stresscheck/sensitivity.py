@@ -109,7 +109,8 @@ def annotate(design, checks: list, policy) -> str | None:
     ``rss = {nominal, value, ratio}``: the stress at the nominal point, the RSS
     estimate and its ratio to the allowed value of a steady point (None without one).
     For a quantity where more is better (life) the estimate is y(x₀) − √(Σ c_j²) and
-    the ratio minimum / estimate.
+    the ratio minimum / estimate; both None where that linear estimate is not positive
+    (life is exponential in temperature: over a wide range the line overshoots).
 
     Returns
     -------
@@ -138,7 +139,9 @@ def annotate(design, checks: list, policy) -> str | None:
         _, allowed, _ = steady_allowed(stress.component, stress.quantity, policy)
         if stress.quantity in MORE_IS_BETTER:  # the worst is below the nominal (life)
             value = 2 * y0 - value
-            ratio = allowed / value if allowed is not None and value > 0 else None
+            if value <= 0:  # the linearisation overshoots (life is exponential in T)
+                value = None
+            ratio = allowed / value if allowed is not None and value else None
         else:
             ratio = value / allowed if allowed is not None and allowed > 0 else None
         check.rss = {"nominal": y0, "value": value, "ratio": ratio}

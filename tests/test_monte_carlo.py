@@ -238,6 +238,80 @@ def test_hot_spot_linear_in_ambient_gives_closed_form_statistics(tmp_path):
     assert hot.rss["ratio"] == pytest.approx(hot.rss["value"] / 80.0)
 
 
+def test_life_rule_counts_samples_below_the_required_life(tmp_path):
+    """Life is "more is better": only the ambient varies (uniform −40..90 °C) and the
+    polymer output capacitor's hot spot is T_a + a constant rise (ESR·I_rms²·R_th, no
+    temperature coefficient), so life = L0·10^((105 − T_a − rise)/20 K) (polymer ×10
+    per 20 K: makers' notes, FROM MEMORY, docs/derating-sources.md §8) falls
+    monotonically with T_a. With required_life R the share of samples below R is the
+    share of ambients above T* = 105 − rise − 20·log10(R/L0) (uniform distribution;
+    R = 100,000 h is below the 15-year cap, so capped samples count as meeting it);
+    4 binomial standard errors. The worst sample (``min``) is at the hottest ambient and
+    the Monte Carlo run does not move the corner result (monotonic)."""
+    path = write_buck(tmp_path)
+    text = path.read_text().replace("ambient_temperature =",
+                                    'required_life = "100000 h"\nambient_temperature =')
+    path.write_text(text)
+    design, policy, checks = checked(path)
+    life = by_key(checks, "C10", "life")
+    hot = by_key(checks, "C10", "t_hotspot")
+    rise = hot.stress - 90.0  # constant rise at the hottest corner
+    corner = (life.stress, life.ratio, life.status)
+    assert life.rule == "capacitor-life-required" and life.capped is False
+    assert life.ratio == pytest.approx(100000 * 3600.0 / life.stress)
+    n = 3000
+    with np.errstate(all="ignore"):
+        run_monte_carlo(design, checks, policy, n, seed=7)
+    mc = life.monte_carlo
+    # below T* - 2.4 K the life reaches the 15-year cap (131,490 h), still above R
+    t_star = 105.0 - rise - 20.0 * math.log10(100000 / 5000)
+    p = (90.0 - t_star) / 130.0
+    assert abs(mc["p_exceed"] - p) < 4 * math.sqrt(p * (1 - p) / n)
+    assert mc["min"] >= life.stress * (1 - 1e-6)  # no sample shorter than the corner
+    assert mc["min"] <= mc["p50"] <= mc["max"]
+    # the sample closest to 90 degC: within 130/n·4 K of it, i.e. life within 10^(0.17/20)
+    assert mc["min"] == pytest.approx(life.stress, rel=0.02)
+    assert (life.stress, life.ratio, life.status) == corner and life.method == "corners"
+
+
+def test_rss_of_life_lies_below_the_nominal(tmp_path):
+    """RSS for a more-is-better quantity: y(x0) − √(Σ c_j²), ratio minimum / value. Ambient
+    80..90 °C keeps the nominal life (≈ 5000·10^(20/20) h at 85 °C, polymer ×10 per
+    20 K: from memory) below the 15-year cap, and life falls with the ambient, so the
+    estimate is below the nominal. Over 70..90 °C the linear estimate overshoots below
+    zero: no value and no ratio then."""
+    path = write_buck(tmp_path, ta='{ min = "80 degC", max = "90 degC" }')
+    path.write_text(path.read_text().replace(
+        "ambient_temperature =", 'required_life = "50000 h"\nambient_temperature ='))
+    design, policy, checks = checked(path)
+    with np.errstate(all="ignore"):
+        annotate(design, checks, policy)
+    life = by_key(checks, "C10", "life")
+    assert life.rss["nominal"] == pytest.approx(5000 * 3600.0 * 10 ** (20 / 20), rel=0.01)
+    assert 0 < life.rss["value"] < life.rss["nominal"]
+    assert life.rss["ratio"] == pytest.approx(50000 * 3600.0 / life.rss["value"])
+    (tmp_path / "wide").mkdir()
+    wide = write_buck(tmp_path / "wide", ta='{ min = "70 degC", max = "90 degC" }')
+    wide.write_text(wide.read_text().replace(
+        "ambient_temperature =", 'required_life = "50000 h"\nambient_temperature ='))
+    design, policy, checks = checked(wide)
+    with np.errstate(all="ignore"):
+        annotate(design, checks, policy)
+    life = by_key(checks, "C10", "life")
+    assert life.rss["value"] is None and life.rss["ratio"] is None
+
+
+def test_tally_of_a_more_is_better_quantity():
+    """Tally with lower_worse: exceedance counts values below the minimum, ``min`` is
+    the worst; values 1..100 with minimum 10.5 -> 10 of 100 below (by hand)."""
+    tally = Tally(10.5, lower_worse=True)
+    cs = sample_chunk({}, {}, 0, 100, chunk_rng(0, 0))
+    tally.add(np.arange(1.0, 101.0), cs)
+    out = tally.summary()
+    assert out["p_exceed"] == pytest.approx(0.10) and out["min"] == 1.0
+    assert out["max"] == 100.0 and tally.worst_row["id"] == "s0000001"
+
+
 def test_same_seed_same_results_through_the_engine(tmp_path):
     path = write_buck(tmp_path, vin='{ min = "20 V", max = "36 V" }',
                       inductance='{ nom = "22 uH", tolerance = "20 %" }')
