@@ -297,3 +297,40 @@ def test_ceramic_self_heating_without_esr_or_r_th_is_not_computed(tmp_path, drop
     (c,) = [c for c in run_checks(ev, load_policy("commercial"))
             if c.ref == "C1" and c.quantity == "t_rise"]
     assert c.status == "not-computed" and words in c.note
+
+
+# ------------------------------------------------------------------ shown as "> 15 years"
+
+def test_capped_life_is_shown_as_more_than_15_years_everywhere(tmp_path):
+    """A required life beyond the cap fails; the terminal, the HTML report, checks.csv
+    and the spreadsheet show the capped life as "> 15 years", never as a figure, while
+    results.json keeps the cap [s] with ``capped`` true."""
+    import csv
+    import json
+
+    import openpyxl
+
+    from test_input_errors import run_cli
+    path = buck(tmp_path, required="150000 h", life="20000 h",
+                ambient={"min": "0 degC", "max": "25 degC"}).path
+    status, out, err = run_cli(["check", path, "--out", tmp_path / "out"])
+    assert status == 1, err
+    assert "life" in out and "(life > 15 years)" in out
+    results = json.loads((tmp_path / "out" / "results.json").read_text(encoding="utf-8"))
+    (c,) = [c for c in results["checks"] if c["ref"] == "C2" and c["quantity"] == "life"]
+    assert c["capped"] is True and c["stress"] == pytest.approx(15 * YEAR)
+    assert c["status"] == "fail" and c["allowed"] == pytest.approx(150000 * HOUR)
+    html = (tmp_path / "out" / "report.html").read_text(encoding="utf-8")
+    assert "&gt; 15 years" in html and "131\u202f490 h" not in html
+    with open(tmp_path / "out" / "checks.csv", encoding="utf-8", newline="") as fh:
+        (row,) = [r for r in csv.DictReader(fh) if r["ref"] == "C2"
+                  and r["quantity"] == "life"]
+    assert row["stress [unit]"] == "> 15 years" and row["unit"] == "h"
+    assert float(row["margin [unit] (allowed − stress)"]) == pytest.approx(
+        15 * YEAR / HOUR - 150000)  # life: value − minimum, negative when failing
+    ws = openpyxl.load_workbook(tmp_path / "out" / "report.xlsx")["Checks"]
+    head = [cell.value for cell in ws[1]]
+    cells = [[cell.value for cell in r] for r in ws.iter_rows(min_row=2)]
+    (xrow,) = [r for r in cells if r[head.index("ref")] == "C2"
+               and r[head.index("quantity")] == "life"]
+    assert xrow[head.index("stress [unit]")] == "> 15 years"
