@@ -5,7 +5,8 @@ Each entry names a ref and a quantity, the measured value with its unit, its pro
 
 - ``replace``: the measurement stands for the computed value at every corner;
 - ``bound``: the measurement bounds the stress from below: at each corner the larger of
-  the computed and the measured value (a stress not computed stays not computed).
+  the computed and the measured value (a stress not computed stays not computed); for a
+  quantity where more is better (life) the smaller, the worse side.
 
 The affected rows carry ``basis = "measured"`` and ``measured = {value, instrument,
 probe_point, date, mode}`` in every output.
@@ -91,6 +92,10 @@ def apply(measurements, stresses) -> None:
             s.values = np.full_like(s.values, m.value)
             s.reason = ""
             s.note = f"measured value ({m.probe_point or 'probe point not given'})"
+        elif m.quantity in schema.MORE_IS_BETTER:  # the worse side of a life is lower
+            s.values = np.minimum(s.values, m.value)  # NaN stays NaN: not computed
+            s.note = "; ".join(x for x in (s.note, "at most the measured value (more is "
+                                           "better)") if x)
         else:
             s.values = np.maximum(s.values, m.value)  # NaN stays NaN: not computed
             s.note = "; ".join(x for x in (s.note, "at least the measured value") if x)

@@ -177,6 +177,25 @@ def test_capped_life_is_flagged_and_its_ratio_conservative(tmp_path):
     assert all("capped" not in c.as_dict() for c in other)
 
 
+@pytest.mark.parametrize("factor,shorter", [(0.5, True), (2.0, False)])
+def test_measured_life_bound_takes_the_shorter_life(tmp_path, factor, shorter):
+    """[[measured]] mode "bound" makes a stress at least as bad as measured: for life
+    (more is better) the shorter of the computed and the measured life."""
+    policy = load_policy("commercial")
+    design = buck(tmp_path / "a", required="20000 h")
+    (plain,) = [c for c in run_checks(run(design), policy)
+                if c.ref == "C2" and c.quantity == "life"]
+    path = design.path
+    text = path.read_text(encoding="utf-8")
+    value = plain.stress * factor / HOUR
+    path.write_text(text + f'\n[[measured]]\nref = "C2"\nquantity = "life"\n'
+                    f'value = "{value!r} h"\nmode = "bound"\n', encoding="utf-8")
+    (c,) = [c for c in run_checks(run(load_design(path)), policy)
+            if c.ref == "C2" and c.quantity == "life"]
+    want = plain.stress * factor if shorter else plain.stress
+    assert c.stress == pytest.approx(want, rel=1e-9) and c.basis == "measured"
+
+
 # ------------------------------------------------------------------ the rule form
 
 def _corners(n):
