@@ -20,7 +20,15 @@ def capacitor_life(technology, life_rated, t_max, t_hotspot):
     capacitor makers' life notes; docs/derating-sources.md §7, S20).
     Aluminium polymer: L = L0·10^((T_max − T_hs)/20 K) (the "×10 per 20 °C" rule of
     polymer makers' notes; docs/derating-sources.md §8 — from memory, medium confidence).
-    Both hold roughly between 70 °C and T_max and are capped at 15 years.
+    Both hold roughly between 70 °C and T_max and are capped at 15 years (``LIFE_CAP``:
+    seal wear and electrolyte loss end the life whatever the temperature; makers cap
+    their estimates there, common practice, from memory); a check at the cap carries
+    ``capped`` and is shown as "> 15 years". Checked against a maker's worked example
+    (Cosel Q&A a0057: 1,000 h at 105 °C -> 16,000 h at 65 °C) in
+    tests/test_capacitor_life.py. Makers' own formulas read the rated life at an ambient
+    of T_max with the rated ripple, so they credit that ripple's self-heating (a few
+    kelvin, from memory); reading it at a hot spot of T_max, as here, errs short: the
+    conservative side.
 
     Parameters
     ----------
