@@ -26,7 +26,8 @@ MODES = ("replace", "bound")
 KEYS = ("ref", "quantity", "value", "instrument", "probe_point", "date", "mode")
 # quantity unit -> dimension of units.DIMENSIONS
 UNIT_DIMENSIONS = {"V": "voltage", "A": "current", "W": "power", "degC": "temperature",
-                   "T": "flux_density", "s": "time"}
+                   "T": "flux_density", "s": "time", "K": "temperature_difference",
+                   "1": "fraction"}
 
 
 @dataclass(frozen=True)

@@ -309,6 +309,19 @@ def test_ceramic_self_heating_above_20_k_fails(tmp_path):
     assert c.stress > 20.0 and c.status == "fail"
 
 
+def test_measured_self_heating_replaces_the_computed_one(tmp_path):
+    """A [[measured]] t_rise (thermocouple on the part) in kelvin stands for the
+    computed value and is checked against the same 20 K."""
+    design = buck(tmp_path)
+    path = design.path
+    path.write_text(path.read_text(encoding="utf-8") + '\n[[measured]]\nref = "C1"\n'
+                    'quantity = "t_rise"\nvalue = "25 K"\n', encoding="utf-8")
+    (c,) = [c for c in run_checks(run(load_design(path)), load_policy("commercial"))
+            if c.ref == "C1" and c.quantity == "t_rise"]
+    assert c.stress == pytest.approx(25.0) and c.status == "fail"
+    assert c.basis == "measured"
+
+
 @pytest.mark.parametrize("drop,words", [(("electrical", "esr"), "ESR"),
                                         (("thermal", "r_th"), "r_th")])
 def test_ceramic_self_heating_without_esr_or_r_th_is_not_computed(tmp_path, drop, words):
