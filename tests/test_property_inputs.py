@@ -587,7 +587,8 @@ def policy_rule_mutations(doc):
             if "margin" not in rule and "limit" not in rule:
                 sub.append(st.just(DELETE).map(m("factor", "delete factor")))
         qdim = {"V": "voltage", "A": "current", "W": "power", "degC": "temperature",
-                "T": "flux_density", "s": "time", "1": "fraction"}[
+                "T": "flux_density", "s": "time", "1": "fraction",
+                "K": "temperature_difference"}[
             schema.QUANTITIES[rule["quantity"]].unit]
         if "margin" in rule:
             mdim = "temperature_difference" if qdim == "temperature" else qdim
