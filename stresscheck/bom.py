@@ -62,7 +62,10 @@ def read_table(path: Path, what: str):
     if not path.exists():
         raise InputError(path, None, f"{what} does not exist")
     if not path.is_file():
-        raise InputError(path, None, f"{what} is not a regular file")
+        from .fsio import file_kind
+        kind = file_kind(path.stat().st_mode)
+        via = "a symbolic link to " if path.is_symlink() else ""
+        raise InputError(path, None, f"{what} is {via}{kind}, not a regular file")
     suffix = path.suffix.lower()
     try:
         if suffix in (".xlsx", ".xlsm"):

@@ -12,6 +12,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from .errors import InputError
+from .fsio import NotRegularFile, read_regular
 
 # How bad a status is for the exit status and for ordering: a change to a higher rank is
 # "worse". Waived rows and info rows do not set the exit status, like a pass.
@@ -88,7 +89,10 @@ def load_results(path) -> dict:
     """A results.json document, checked enough to compare; InputError names the file."""
     path = Path(path)
     try:
-        doc = json.loads(path.read_text(encoding="utf-8"))
+        doc = json.loads(read_regular(path).decode("utf-8"))
+    except NotRegularFile as exc:
+        raise InputError(path, None, f"results file is {exc.describe()}, not a regular "
+                         "file") from None
     except FileNotFoundError:
         raise InputError(path, None, "results file does not exist") from None
     except (OSError, UnicodeDecodeError) as exc:

@@ -1,4 +1,4 @@
-"""Atomic file writes.
+"""Atomic file writes, and reading input files that refuse anything but a regular file.
 
 A report is either the complete previous version or the complete new one, never a
 half-written file: data goes to a temporary file in the target's own folder (so the final
@@ -8,8 +8,61 @@ rename stays on one file system), is flushed to disk, then renamed over the targ
 from __future__ import annotations
 
 import os
+import stat
 import tempfile
 from pathlib import Path
+
+FILE_TYPES = ((stat.S_ISDIR, "a folder"), (stat.S_ISFIFO, "a FIFO (named pipe)"),
+              (stat.S_ISCHR, "a character device"), (stat.S_ISBLK, "a block device"),
+              (stat.S_ISSOCK, "a socket"))
+
+
+def file_kind(mode: int) -> str:
+    """What a file of ``st_mode`` ``mode`` is, in words ("a FIFO (named pipe)", ...)."""
+    if stat.S_ISREG(mode):
+        return "a regular file"
+    return next((name for test, name in FILE_TYPES if test(mode)), "not a regular file")
+
+
+class NotRegularFile(OSError):
+    """An input path that is not a regular file (or a link to one); ``kind`` says what it
+    is ("a FIFO (named pipe)", ...) and ``link`` whether the path is a symbolic link."""
+
+    def __init__(self, path, kind: str, link: bool):
+        super().__init__(f"{path}: {kind}, not a regular file")
+        self.kind, self.link = kind, link
+
+    def describe(self) -> str:
+        """``"a FIFO (named pipe)"`` or ``"a symbolic link to a FIFO (named pipe)"``."""
+        return ("a symbolic link to " if self.link else "") + self.kind
+
+
+def read_regular(path: str | os.PathLike, limit: int = -1) -> bytes:
+    """The bytes of a regular file (at most ``limit`` bytes when it is not negative),
+    without ever blocking on a FIFO or a device.
+
+    The file is opened non-blocking (a FIFO then opens at once, even with no writer) and
+    checked with ``fstat`` on the open descriptor, so nothing can swap it in between.
+
+    Raises
+    ------
+    NotRegularFile
+        The path is a FIFO, a device, a socket or a folder (or a link to one).
+    OSError
+        FileNotFoundError and the other errors of ``open``.
+    """
+    flags = os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_BINARY", 0)
+    fd = os.open(path, flags)
+    try:
+        mode = os.fstat(fd).st_mode
+        if not stat.S_ISREG(mode):
+            raise NotRegularFile(path, file_kind(mode), os.path.islink(path))
+        if hasattr(os, "set_blocking"):
+            os.set_blocking(fd, True)
+        with os.fdopen(fd, "rb", closefd=False) as fh:
+            return fh.read(limit)
+    finally:
+        os.close(fd)
 
 
 def _default_mode() -> int:

@@ -17,6 +17,7 @@ import numpy as np
 
 from . import schema
 from .errors import InputError
+from .fsio import file_kind
 from .tomlio import check_keys, optional_text, read_toml, require_str, shorten, type_name
 from .units import Spread, parse_quantity, parse_spread
 
@@ -294,11 +295,6 @@ class PartLibrary:
         return list(seen.values())
 
 
-_FILE_TYPES = ((stat.S_ISDIR, "a folder"), (stat.S_ISFIFO, "a FIFO (named pipe)"),
-               (stat.S_ISCHR, "a character device"), (stat.S_ISBLK, "a block device"),
-               (stat.S_ISSOCK, "a socket"))
-
-
 def require_regular_file(path: Path, asked_by: str | None = None) -> None:
     """Refuse a part sheet that is not a regular file (or a link to one): a FIFO, a
     device, a socket, a folder or a dangling link is an error naming it, never skipped
@@ -317,7 +313,7 @@ def require_regular_file(path: Path, asked_by: str | None = None) -> None:
                          f"{exc.strerror or exc}{why}") from None
     if stat.S_ISREG(mode):
         return
-    kind = next((name for test, name in _FILE_TYPES if test(mode)), "not a regular file")
+    kind = file_kind(mode)
     via = "a symbolic link to " if link else ""
     raise InputError(path, None, f"part sheet is {via}{kind}, not a regular file; a part "
                      f"sheet must be a regular file{why}")

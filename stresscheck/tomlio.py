@@ -12,6 +12,7 @@ except ModuleNotFoundError:  # Python 3.10
     import tomli as tomllib  # type: ignore[no-redef]
 
 from .errors import InputError
+from .fsio import NotRegularFile, read_regular
 
 _LINE = re.compile(r"\(at line (\d+), column (\d+)\)")
 _END = re.compile(r"\s*\(at end of document\)")
@@ -23,8 +24,10 @@ def _read_bytes(path: Path, what: str) -> bytes:
     try:
         if path.is_dir():
             raise InputError(path, None, f"{what} expected, but this is a folder")
-        with open(path, "rb") as fh:
-            raw = fh.read(MAX_INPUT_BYTES + 1)
+        raw = read_regular(path, MAX_INPUT_BYTES + 1)
+    except NotRegularFile as exc:
+        raise InputError(path, None, f"{what} is {exc.describe()}, not a regular file; "
+                         f"a {what} must be a regular file") from None
     except FileNotFoundError:
         raise InputError(path, None, f"{what} not found") from None
     except IsADirectoryError:
