@@ -118,6 +118,15 @@ def _corner_label(corner: dict, units: dict) -> str:
     return ", ".join(parts)
 
 
+def input_axis_label(results: dict) -> str:
+    """Label of an input-voltage axis: ``input voltage [V rms]`` for an AC input (the
+    design's ``[operating] input = "ac"``: input_voltage is an rms line voltage), else
+    ``input voltage [V]``. The results show an AC input by its ``line_frequency`` corner
+    key, which a design has exactly when its input is "ac" (stresscheck.design)."""
+    ac = "line_frequency" in (results.get("corner_keys") or ())
+    return "input voltage [V rms]" if ac else "input voltage [V]"
+
+
 def sweep_groups(results: dict) -> list[dict]:
     """Sweeps of the results grouped by ref: refs whose every sweep is identical share
     one picture. Each group: ``{"refs": [...], "role", "part", "sweeps": [...]}``."""
@@ -149,6 +158,7 @@ def sweep_chart(group: dict, results: dict) -> str:
     units = results.get("corner_units") or {}
     sweeps = group["sweeps"]
     ref = group["refs"][0]
+    x_label = input_axis_label(results)
     with matplotlib.rc_context(_RC):
         width = min(3.0 * len(sweeps), 14.0)
         fig = _figure(width, 2.6, left=0.55 / width, right=1 - 0.1 / width, top=0.88,
@@ -187,7 +197,7 @@ def sweep_chart(group: dict, results: dict) -> str:
             top = max([p[1] for p in pts] + ([allowed / scale] if allowed is not None
                                              else []) + [0.0])
             ax.set_ylim(min(0.0, min([p[1] for p in pts] + [0.0])), top * 1.15 or 1.0)
-            ax.set_xlabel("input voltage [V]")
+            ax.set_xlabel(x_label)
             ax.set_ylabel(f"{q} [{label}]" if label else str(q))
             where = _corner_label(corners.get(s.get("corner")) or {}, units)
             ax.set_title(f"{q}" + (f" at {where}" if where else ""))
