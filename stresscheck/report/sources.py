@@ -69,6 +69,17 @@ def name_notes(text: str) -> str:
                             "under Rule sources)", text or "")
 
 
+def plain_citations(source: str) -> str:
+    """A rule source as plain text worded as the HTML report shows it: each
+    ``docs/<note>.md §N`` becomes ``<note> notes §N`` (the section's text is given with
+    the report: the HTML appendix, the spreadsheet's Policy sheet), any other
+    ``docs/<note>.md`` as in :func:`name_notes`."""
+    def cite(match) -> str:
+        numbers = " ".join(f"§{n}" for n in SECTION_NUMBER.findall(match.group(2)))
+        return f"{match.group(1).replace('-', ' ')} notes {numbers}"
+    return name_notes(CITATION.sub(cite, source or ""))
+
+
 def anchor(note: str, number: int) -> str:
     return f"src-{note}-{number}"
 
@@ -157,14 +168,48 @@ def markdown_html(text: str) -> Markup:
     return Markup("\n").join(blocks)
 
 
+def markdown_lines(text: str) -> list[str]:
+    """A note's markdown as plain lines for a spreadsheet: table rows with their cells
+    joined by " | " (separator rows dropped), bullets as "• ", ``**`` and backticks
+    removed, paragraphs joined into one line each; blank lines dropped."""
+    out: list[str] = []
+    para: list[str] = []
+
+    def clean(s: str) -> str:
+        return re.sub(r"`([^`]+)`", r"\1", re.sub(r"\*\*(.+?)\*\*", r"\1", s))
+
+    def flush():
+        if para:
+            out.append(clean(" ".join(para)))
+            para.clear()
+
+    for line in text.splitlines():
+        stripped = line.strip()
+        if line.startswith("|"):
+            flush()
+            cells = [c.strip() for c in stripped.strip("|").split("|")]
+            if not all(re.fullmatch(r":?-{2,}:?", c) for c in cells if c):
+                out.append(clean(" | ".join(cells)))
+        elif line.lstrip().startswith(("- ", "* ")):
+            flush()
+            out.append("• " + clean(line.lstrip()[2:]))
+        elif not stripped or stripped == "---":
+            flush()
+        else:
+            para.append(line.lstrip("#").strip())
+    flush()
+    return out
+
+
 def appendix(rules) -> list[dict]:
     """The sections and source rows the rules cite, ready for the template.
 
     Returns
     -------
     list of dict
-        ``{"anchor", "title", "html"}`` per cited section (notes in order of first
-        citation), then one entry with the cited source-id rows where any.
+        ``{"anchor", "key", "title", "html", "markdown"}`` per cited section (notes in
+        order of first citation), then one entry with the cited source-id rows where
+        any.
     """
     cited: list[tuple[str, int]] = []
     ids: list[int] = []
@@ -189,14 +234,15 @@ def appendix(rules) -> list[dict]:
         title, body = found
         out.append({"anchor": anchor(note, number), "key": (note, number),
                     "title": f"{note.replace('-', ' ')} notes §{number}. {title}",
-                    "html": markdown_html(body)})
+                    "html": markdown_html(body), "markdown": body})
     derating = note_text("derating-sources")
     if ids and derating:
         first = derating.splitlines()
         header = next((ln for ln in first if ln.startswith("| id |")), None)
         rows = source_rows(sorted(ids), derating)
         if header and rows:
+            table = "\n".join([header, "|---|"] + rows)
             out.append({"anchor": "src-ids", "key": ("ids", 0),
                         "title": "Sources cited by id",
-                        "html": markdown_html("\n".join([header, "|---|"] + rows))})
+                        "html": markdown_html(table), "markdown": table})
     return out

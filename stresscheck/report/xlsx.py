@@ -25,7 +25,7 @@ from openpyxl.formatting.rule import FormulaRule
 from openpyxl.packaging.custom import StringProperty
 from openpyxl.utils import get_column_letter
 
-from . import xlsx_sheets
+from . import sources, xlsx_sheets
 from .xlsx_sheets import RATIO_FORMAT, _clean_text, fill, finish, header, put
 from .table import table
 from .view import (OTHER_COLOUR, STATUS_COLOURS, policy_label, revision, round_sig,
@@ -89,6 +89,8 @@ def _checks_sheet(ws, results: dict, checks, page: dict) -> None:
             if key == "ratio":
                 cell = put(ws, r, c, None if value is None else round(value, 4))
                 cell.number_format = RATIO_FORMAT
+            elif key == "rule_source":  # worded as the HTML shows it (Policy sheet)
+                put(ws, r, c, sources.plain_citations(value) if value else value)
             elif key in ("mc_p_exceed", "simulated_difference", "simulated_tolerance"):
                 put(ws, r, c, round_sig(value)).number_format = RATIO_FORMAT
             else:

@@ -14,6 +14,7 @@ from openpyxl.utils import get_column_letter
 
 from ..schema import KIND_QUANTITIES
 from ..texts import CAUTIONS
+from . import sources
 from .view import (OTHER_COLOUR, ROLE_ORDER, STATUS_COLOURS, STATUS_ORDER, corner_columns,
                    count_statuses, display_value, eng_scale, policy_label, revision,
                    round_sig, signoff, tool_version, unit_label)
@@ -275,13 +276,36 @@ def policy_sheet(ws, results: dict, page: dict) -> None:
             value = rule.get(key)
             if isinstance(value, (list, tuple)):
                 value = ", ".join(str(v) for v in value)
+            elif key == "source":
+                value = sources.plain_citations(str(value or ""))
             put(ws, r, col, value)
     finish(ws, len(keys), r, page=page)
     details = results.get("policy_details") or {}
+    i = r + 2
     for i, (key, value) in enumerate(sorted(details.items()), start=r + 3):
+        if isinstance(value, (list, tuple)):
+            value = ", ".join(map(str, value))
+        elif key == "source" and value:
+            value = sources.plain_citations(str(value))
         put(ws, i, 1, f"policy {key}").font = BOLD
-        put(ws, i, 2, ", ".join(map(str, value)) if isinstance(value, (list, tuple))
-            else value)
+        put(ws, i, 2, value)
+    _rule_sources(ws, results, i + 2)
+
+
+def _rule_sources(ws, results: dict, row: int) -> None:
+    """Below the rules: the text of every note section the rule sources cite (as the
+    HTML report's appendix), so that the sheet stands alone."""
+    cited = sources.appendix(results.get("policy_rules") or ())
+    if not cited:
+        return
+    put(ws, row, 1, "Rule sources: the cited sections of the notes shipped with the "
+                    "tool").font = TITLE
+    for entry in cited:
+        row += 2
+        put(ws, row, 1, entry["title"]).font = BOLD
+        for line in sources.markdown_lines(entry["markdown"]):
+            row += 1
+            put(ws, row, 1, line)
 
 
 def inputs_sheet(ws, results: dict, page: dict) -> None:
