@@ -103,6 +103,43 @@ def governing_corners(evaluation, checks) -> list[int]:
     return wanted
 
 
+def runaway_corners(evaluation):
+    """Corners where some device's electro-thermal loop ran away, (N,) bool."""
+    import numpy as np
+    ran = np.zeros(evaluation.corners.size, bool)
+    for mask in (getattr(evaluation, "runaway", None) or {}).values():
+        ran |= np.asarray(mask, bool)
+    return ran
+
+
+def corners_to_simulate(evaluation, checks, policy) -> tuple[list[int], list[int]]:
+    """The governing corners to simulate, and the governing corners skipped because an
+    electro-thermal loop ran away there.
+
+    At a runaway corner the engine's operating point (R_DS(on), duty, currents) comes
+    from an unconverged loop: there is nothing to compare. Each compared row is then
+    governed by its worst corner among the corners that converged (the checks re-run
+    with the runaway corners taken out).
+
+    Returns
+    -------
+    tuple of list of int
+        (corner indices to simulate, governing corner indices skipped), both sorted.
+    """
+    from dataclasses import replace
+
+    from .checks import run_checks
+
+    ran = runaway_corners(evaluation)
+    first = governing_corners(evaluation, checks)
+    if not ran.any():
+        return first, []
+    kept = replace(evaluation, runaway={}, stresses=[
+        replace(s, applicable=s.applicable & ~ran) for s in evaluation.stresses])
+    corners = [i for i in governing_corners(kept, run_checks(kept, policy)) if not ran[i]]
+    return corners, [i for i in first if ran[i]]
+
+
 def verify_design(design_path, parts, policy_name, *, keep: Path | None = None,
                   into: Path | None = None) -> int:
     from .checks import run_checks
@@ -126,7 +163,14 @@ def verify_design(design_path, parts, policy_name, *, keep: Path | None = None,
     report_set = _open_report_set(into, design, policy) if into is not None else None
     evaluation = run(design)
     checks = run_checks(evaluation, policy)
-    corners = governing_corners(evaluation, checks)
+    corners, skipped = corners_to_simulate(evaluation, checks, policy)
+    if skipped:
+        n_ran = int(runaway_corners(evaluation).sum())
+        print(f"{design.name}: skipping {len(skipped)} governing corner(s) where the "
+              f"electro-thermal loop ran away (thermal runaway at {n_ran} corner(s) in "
+              f"all; nothing to compare there): "
+              f"{', '.join(evaluation.corners.ids[i] for i in skipped)}; each row is "
+              "simulated at its worst corner among those that converged")
     print(f"{design.name}: simulating {len(corners)} governing corner(s) in ngspice")
     failures = 0
     compared: list[Comparison] = []
