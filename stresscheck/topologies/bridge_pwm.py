@@ -64,6 +64,7 @@ from ..waveforms import PWL, Grid, capacitor_voltage, per_corner
 from .base import Stage, StageResult
 from .bridge_light import LightLoad
 from .bridge_rectifier import GROUPS, rectifier_groups
+from .doubler_light import DeadTimeReverse
 
 ON1, F1A, F1B, F1C, ON2, F2A, F2B, F2C = range(8)
 _SEGMENTS = 8
@@ -217,9 +218,14 @@ def evaluate(st: Stage) -> StageResult:
     gain = n if doubler else 2 * n  # V_o = gain·D·V_src, lossless
     i_m = v_src * (st.vo / (gain * v_src)) * ts / (2 * xf.l_m)
     light_mask, light = None, None
+    dead = None  # synchronous current doubler: reverse current at a channel's turn-off
+    if doubler and sync and np.any(t_d > 0):
+        dead = DeadTimeReverse(n, st.inductors[0].l, xf.l_m, np.zeros(io.shape))
     for _ in range(BUS_PASSES):
         emf_on = v_src - r_prim * n * i_sec  # mean primary emf during the on-interval
         u = _segment_voltages(st, ga, gb, emf_on, i_m / n)
+        if dead is not None:
+            u = dead.voltages(u)
         duty = _balance_duty(u[0], ts, t_d)
         d = np.clip(duty, 1e-6, 0.5)
         grid = Grid(_durations(d, ts, t_d))
@@ -257,6 +263,10 @@ def evaluate(st: Stage) -> StageResult:
         i_prim = (i_s * n + mag).only(MASK_ON)
         i_a = i_prim.only(MASK_ON1)  # current of the first / second on-path
         i_b = (-i_prim).only(MASK_ON2)
+        dead_settled = True
+        if dead is not None:
+            cur_a, cur_b, i_a, i_b = dead.patch(cur_a, cur_b, i_a, i_b, i_l, share)
+            dead_settled = dead.observe(i_l, share, grid.dt[:, F1C])
 
         currents = {("inductor", k): w for k, w in enumerate(i_l)}
         i_out_sum = i_l[0] if len(i_l) == 1 else i_l[0] + i_l[1]
@@ -291,7 +301,7 @@ def evaluate(st: Stage) -> StageResult:
             currents[("input-capacitor", 0)] = i_cin
             v_block[("input-capacitor", 0)] = bus.max()
         v_src_new = (src1.mean_over(MASK_ON1) + src2.mean_over(MASK_ON2)) / 2
-        settled = (np.allclose(v_src_new, v_src, rtol=1e-9, atol=0)
+        settled = (dead_settled and np.allclose(v_src_new, v_src, rtol=1e-9, atol=0)
                    and np.allclose(i_m_new, i_m, rtol=1e-9, atol=1e-12))
         v_src, i_m = v_src_new, i_m_new
         if settled:
