@@ -221,21 +221,28 @@ def evaluate(st: Stage) -> StageResult:
     dead = None  # synchronous current doubler: reverse current at a channel's turn-off
     if doubler and sync and np.any(t_d > 0):
         dead = DeadTimeReverse(n, st.inductors[0].l, xf.l_m, np.zeros(io.shape))
+        sw_vf = np.mean([d.v_f0 for d in st.group("switch")], axis=0)  # body diodes
     for _ in range(BUS_PASSES):
         emf_on = v_src - r_prim * n * i_sec  # mean primary emf during the on-interval
         u = _segment_voltages(st, ga, gb, emf_on, i_m / n)
-        if dead is not None:
-            u = dead.voltages(u)
+        if dead is not None:  # reverse part: winding at n·(V_src + v_f0 + R·I)
+            du_rev = n * (sw_vf + r_prim * n * i_sec) + 0 * io
+            u = dead.voltages(u, du_rev)
         duty = _balance_duty(u[0], ts, t_d)
         d = np.clip(duty, 1e-6, 0.5)
         grid = Grid(_durations(d, ts, t_d))
         lam = emf_on * d * ts
+        if dead is not None:  # volt-seconds of the reverse part of the dead time
+            lam_rev = (v_src + sw_vf + r_prim * n * i_sec) * dead.t_rev()
+            lam = lam + lam_rev
         i_m_new = lam / (2 * xf.l_m)
         i_l = [inductor_wave(grid, uk, ind.l, io / len(u))
                for uk, ind in zip(u, st.inductors)]
         im_a = np.where(MASK_ON1, -1.0, np.where(MASK_ON2 | MASK_FW1, 1.0, -1.0))
         im_b = np.where(MASK_ON2 | MASK_FW2, -1.0, 1.0)
         mag = grid.wave(im_a[None, :] * i_m_new[:, None], im_b[None, :] * i_m_new[:, None])
+        if dead is not None:
+            mag = dead.magnetizing(mag, i_m_new, lam_rev / lam)
         share = mag / n
         if light_mask is None:  # decided once, on the first pass's CCM solution
             light_mask = _below_ccm(st, i_l, share)
@@ -330,6 +337,8 @@ def evaluate(st: Stage) -> StageResult:
         v_block[("switch", 1)] = np.maximum(v_q1, bus_max)
     else:
         bus_max = bus.max()
+        if dead is not None:  # a leg's body diode conducts: the other switch sees its drop
+            bus_max = np.where(dead.t_rev() > 0, bus_max + sw_vf, bus_max)
         for k in range(len(switch_r)):
             v_block[("switch", k)] = bus_max
     # primary emf during each on-interval
@@ -340,6 +349,10 @@ def evaluate(st: Stage) -> StageResult:
         both = l1 + l2
         v_a = (emf2 * n - l2 * r_s - _drop(gb, both)).max(MASK_ON2)
         v_b = (emf1 * n - l1 * r_s - _drop(ga, both)).max(MASK_ON1)
+        if dead is not None:  # reverse part of a dead time: source plus body-diode drop
+            v_up = sw_vf + r_prim * n * i_sec
+            v_a = np.maximum(v_a, dead.blocking(src2.max(_mask(F1C)), v_up, gb.drop(io)))
+            v_b = np.maximum(v_b, dead.blocking(src1.max(_mask(F2C)), v_up, ga.drop(io)))
     elif rect == "center-tap":
         # blocking rectifier sees both secondary halves less the conducting one's drop
         v_a = (emf2 * (2 * n) - l1 * r_s - _drop(gb, l1)).max(MASK_ON2)

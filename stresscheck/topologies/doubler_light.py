@@ -77,20 +77,23 @@ class DeadTimeReverse:
         self.n, self.l, self.lm, self.t_b = n, l_ind, l_m, t_b
         self.x0 = None  # {segment: x at its start} once a pass has run
 
-    def voltages(self, u):
-        """Inductor voltages (list of two (N, 8) arrays [V]) with the averaged F1C/F2C."""
+    def voltages(self, u, du_rev):
+        """Inductor voltages (list of two (N, 8) arrays [V]) with the averaged F1C/F2C;
+        ``du_rev`` [V] (N,) is added to the on-interval voltage in the reverse part (the
+        winding at n·(V_src + v_f0 of the body diode) instead of n·(V_src − R·I))."""
         if self.x0 is None:
             return u
         u = [uk.copy() for uk in u]
         self.t = {}
         for seg, k, on, _ in PAIRS:
             u_fw = u[k][:, seg]
-            t_r, t_f = parts(self.x0[seg], u[k][:, on], u_fw, self.l, self.t_b)
+            u_rev = u[k][:, on] + du_rev
+            t_r, t_f = parts(self.x0[seg], u_rev, u_fw, self.l, self.t_b)
             changed = (self.t_b > 0) & ((self.x0[seg] < 0) | (t_f < self.t_b))
             u_ser = u_fw * self.l / (self.l + self.n ** 2 * self.lm)
-            mean = (t_r * u[k][:, on] + t_f * u_fw + (self.t_b - t_r - t_f) * u_ser)
+            mean = (t_r * u_rev + t_f * u_fw + (self.t_b - t_r - t_f) * u_ser)
             u[k][:, seg] = np.where(changed, mean / np.where(changed, self.t_b, 1.0), u_fw)
-            self.t[seg] = (t_r, changed, u[k][:, on] / self.l)
+            self.t[seg] = (t_r, changed, u_rev / self.l)
         return u
 
     def observe(self, i_l, share, t_b):
@@ -130,3 +133,28 @@ class DeadTimeReverse:
             b[:, seg] = np.where(rev, self.n * x_r, b[:, seg])
             out[sw] = s.grid.wave(a, b)
         return out["a"], out["b"], out["sa"], out["sb"]
+
+    def t_rev(self):
+        """Reverse part of the dead time [s] (N,), the mean of F1C and F2C (equal by
+        symmetry); zero before the first pass."""
+        if not hasattr(self, "t"):
+            return 0.0
+        return (self.t[F1C][0] + self.t[F2C][0]) / 2
+
+    def magnetizing(self, mag, i_m, frac):
+        """Magnetizing current (PWL) ramping in the reverse parts too: ``frac`` (N,) is
+        the reverse part's share of the volt-seconds of one half-cycle [1], ``i_m`` its
+        peak [A] (N,) (Faraday's law: the ramp follows the volt-seconds)."""
+        a, b = mag.a.copy(), mag.b.copy()
+        for seg, on, sign in ((F1C, ON2, 1.0), (F2C, ON1, -1.0)):
+            mid = sign * i_m * (1 - 2 * frac)
+            b[:, seg] = mid
+            a[:, on] = mid
+        return mag.grid.wave(a, b)
+
+    def blocking(self, v_src_max, v_rev_drop, drop_other):
+        """Rectifier reverse voltage in the reverse part [V] (N,): the winding at
+        n·(V_src + v_rev_drop) less the conducting rectifier's drop; zero where no
+        reverse part occurs."""
+        rev = self.t_rev() > 0
+        return np.where(rev, self.n * (v_src_max + v_rev_drop) - drop_other, 0.0)
