@@ -64,6 +64,7 @@ from ..waveforms import PWL, Grid, capacitor_voltage, per_corner
 from .base import Stage, StageResult
 from .bridge_light import LightLoad
 from .bridge_rectifier import GROUPS, rectifier_groups
+from .doubler_dcm import DoublerLight
 from .doubler_light import DeadTimeReverse
 
 ON1, F1A, F1B, F1C, ON2, F2A, F2B, F2C = range(8)
@@ -136,8 +137,12 @@ def _below_ccm(st, i_l, share):
     rectifiers (center-tap or bridge) where the inductor current reaches zero or a
     rectifier's freewheel share (i_L ∓ i_m/n)/2 would go negative, and no-load corners."""
     io = st.io
-    if st.rectifier == "current-doubler" or rectifier_groups(st)[0].sync:
+    if rectifier_groups(st)[0].sync:
         return np.zeros(io.shape, bool)
+    if st.rectifier == "current-doubler":  # doubler_dcm: each diode on its own
+        l1, l2 = i_l
+        low = np.minimum((l2 - share).min(MASK_FW), (l1 + share).min(MASK_FW))
+        return (io <= 0) | (np.minimum(l1.min(), l2.min()) <= 0) | (low < 0)
     (l1,) = i_l
     low = np.minimum(((l1 - share) / 2).min(MASK_FW), ((l1 + share) / 2).min(MASK_FW))
     return (io <= 0) | (l1.min() <= 0) | (low < 0)
@@ -219,21 +224,23 @@ def evaluate(st: Stage) -> StageResult:
     i_m = v_src * (st.vo / (gain * v_src)) * ts / (2 * xf.l_m)
     light_mask, light = None, None
     dead = None  # synchronous current doubler: reverse current at a channel's turn-off
+    sw_vf = np.mean([d.v_f0 for d in st.group("switch")], axis=0)  # body diodes
+    # threshold of the body diodes in a reversed primary path (full bridge: two)
+    path_vf = sw_vf * (2 if top == "full-bridge" else 1)
     if doubler and sync and np.any(t_d > 0):
         dead = DeadTimeReverse(n, st.inductors[0].l, xf.l_m, np.zeros(io.shape))
-        sw_vf = np.mean([d.v_f0 for d in st.group("switch")], axis=0)  # body diodes
     for _ in range(BUS_PASSES):
         emf_on = v_src - r_prim * n * i_sec  # mean primary emf during the on-interval
         u = _segment_voltages(st, ga, gb, emf_on, i_m / n)
         if dead is not None:  # reverse part: winding at n·(V_src + v_f0 + R·I)
-            du_rev = n * (sw_vf + r_prim * n * i_sec) + 0 * io
+            du_rev = n * (path_vf + r_prim * n * i_sec) + 0 * io
             u = dead.voltages(u, du_rev)
         duty = _balance_duty(u[0], ts, t_d)
         d = np.clip(duty, 1e-6, 0.5)
         grid = Grid(_durations(d, ts, t_d))
         lam = emf_on * d * ts
         if dead is not None:  # volt-seconds of the reverse part of the dead time
-            lam_rev = (v_src + sw_vf + r_prim * n * i_sec) * dead.t_rev()
+            lam_rev = (v_src + path_vf + r_prim * n * i_sec) * dead.t_rev()
             lam = lam + lam_rev
         i_m_new = lam / (2 * xf.l_m)
         i_l = [inductor_wave(grid, uk, ind.l, io / len(u))
@@ -247,10 +254,20 @@ def evaluate(st: Stage) -> StageResult:
         if light_mask is None:  # decided once, on the first pass's CCM solution
             light_mask = _below_ccm(st, i_l, share)
         if light_mask.any():  # light-load regimes (bridge_light) at those corners
-            light = LightLoad(st, ga, gb, light_mask, v_src, r_prim, np.full(io.shape, 0.5))
-            dt_new, la, lb, ma, mb = light.apply(grid.dt, i_l[0].a, i_l[0].b, mag.a, mag.b)
-            grid = Grid(dt_new)
-            i_l, mag = [grid.wave(la, lb)], grid.wave(ma, mb)
+            if doubler:
+                light = DoublerLight(st, ga, gb, light_mask, v_src, r_prim,
+                                     np.full(io.shape, 0.5), path_vf)
+                dt_new, l1a, l1b, l2a, l2b, ma, mb = light.apply(grid.dt, *i_l, mag)
+                grid = Grid(dt_new)
+                i_l = [grid.wave(l1a, l1b), grid.wave(l2a, l2b)]
+            else:
+                light = LightLoad(st, ga, gb, light_mask, v_src, r_prim,
+                                  np.full(io.shape, 0.5))
+                dt_new, la, lb, ma, mb = light.apply(grid.dt, i_l[0].a, i_l[0].b, mag.a,
+                                                     mag.b)
+                grid = Grid(dt_new)
+                i_l = [grid.wave(la, lb)]
+            mag = grid.wave(ma, mb)
             share = mag / n
             duty, lam, i_m_new = duty.copy(), lam.copy(), i_m_new.copy()
             duty[light.idx] = light.duty
@@ -262,6 +279,8 @@ def evaluate(st: Stage) -> StageResult:
             cur_a = both.only(MASK_ON1) + (l2 - share).only(MASK_FW)
             cur_b = both.only(MASK_ON2) + (l1 + share).only(MASK_FW)
             i_s = l1.only(MASK_ON1) - l2.only(MASK_ON2) - share.only(MASK_FW)
+            if light is not None:  # doubler_dcm: body-diode return after an on-interval
+                cur_a, cur_b, i_s, bd_a, bd_b = light.patch(cur_a, cur_b, i_s)
         else:
             (l1,) = i_l
             cur_a = l1.only(MASK_ON1) + ((l1 - share) / 2).only(MASK_FW)
@@ -270,6 +289,8 @@ def evaluate(st: Stage) -> StageResult:
         i_prim = (i_s * n + mag).only(MASK_ON)
         i_a = i_prim.only(MASK_ON1)  # current of the first / second on-path
         i_b = (-i_prim).only(MASK_ON2)
+        if doubler and light is not None:
+            i_a, i_b = i_a + bd_a, i_b + bd_b
         dead_settled = True
         if dead is not None:
             cur_a, cur_b, i_a, i_b = dead.patch(cur_a, cur_b, i_a, i_b, i_l, share)
@@ -339,6 +360,10 @@ def evaluate(st: Stage) -> StageResult:
         bus_max = bus.max()
         if dead is not None:  # a leg's body diode conducts: the other switch sees its drop
             bus_max = np.where(dead.t_rev() > 0, bus_max + sw_vf, bus_max)
+        if doubler and light is not None:
+            body = np.zeros(io.shape, bool)
+            body[light.idx] = light.bd
+            bus_max = np.where(body, bus_max + sw_vf, bus_max)
         for k in range(len(switch_r)):
             v_block[("switch", k)] = bus_max
     # primary emf during each on-interval
@@ -350,7 +375,7 @@ def evaluate(st: Stage) -> StageResult:
         v_a = (emf2 * n - l2 * r_s - _drop(gb, both)).max(MASK_ON2)
         v_b = (emf1 * n - l1 * r_s - _drop(ga, both)).max(MASK_ON1)
         if dead is not None:  # reverse part of a dead time: source plus body-diode drop
-            v_up = sw_vf + r_prim * n * i_sec
+            v_up = path_vf + r_prim * n * i_sec
             v_a = np.maximum(v_a, dead.blocking(src2.max(_mask(F1C)), v_up, gb.drop(io)))
             v_b = np.maximum(v_b, dead.blocking(src1.max(_mask(F2C)), v_up, ga.drop(io)))
     elif rect == "center-tap":
@@ -417,7 +442,12 @@ def evaluate(st: Stage) -> StageResult:
              "inductance or the minimum load"),
         ]
         if light is not None:
-            invalid.append((clamp, "in the freewheel after a rectifier stops, the "
+            invalid.append((clamp, "at the end of an on-interval an output inductor "
+                            "current is below the magnetizing current referred to the "
+                            "secondary, so the magnetizing current returns through the "
+                            "switches' body diodes (not modelled); raise the magnetizing "
+                            "inductance or the minimum load" if doubler else
+                            "in the freewheel after a rectifier stops, the "
                             "primary voltage would exceed the source and the magnetizing "
                             "current return through the switches' body diodes (not "
                             "modelled)"))
