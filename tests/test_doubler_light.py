@@ -8,7 +8,7 @@ time t_d, also during that dead time (the winding already at the coming polarity
 n·V_src·(D·Ts + t_d) = V_o·Ts; Faraday's law for the flux swing λ = V_src·(D·Ts + t_d)
 per half-cycle (B_peak = λ/(2·N_p·A_e)); Balogh, "The current-doubler rectifier",
 Unitrode application note U-165 (V_o = n·D·V_src in CCM, from memory). Lossless test
-parts (L_m = 1 H, zero drops), so the relations hold to the solver's precision: 1e-3
+parts (L_m = 1 H, zero drops), so the relations hold to the solver's precision: 1e-4
 relative (builders_bridge_ext.REL).
 """
 

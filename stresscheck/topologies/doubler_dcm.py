@@ -11,12 +11,22 @@ on-intervals, so the winding carries exactly i_ms) give, in each half-period (th
 is the mirror image: L1 ↔ L2, A ↔ B, i_ms negated). Relations derived here; the textbook
 limit is checked by the tests:
 
-  ON1   D·Ts    E = n·emf across the winding, A conducts i_1 + i_2:
+  ON1   D·Ts    E = n·emf across the winding, A conducts i_1 + i_2 (so L2's current
+                may go negative: A carries the sum, not L2 alone):
                 L·di_1/dt = E − v_A − V_o − (R_s + DCR)·i_1 = u_on,
                 L·di_2/dt = −v_A − V_o − DCR·i_2 = u_a,  L_ms·di_ms/dt = E
+  then, if i_2 ≥ i_ms at the end of ON1:
   AB            both diodes on, winding clamped (di_ms/dt = 0): i_A = i_2 − i_ms,
                 i_B = i_1 + i_ms; L·di_1/dt = u_b = −v_B − V_o − DCR·i_1, L·di_2/dt = u_a;
-                ends when i_A or i_B reaches zero
+                ends when i_A or i_B reaches zero;
+  else (i_2 < i_ms: A cannot carry i_2 − i_ms):
+  BD            the winding current must stay i_2, so the primary current continues
+                through the switches' body diodes (the coming on-interval's switches,
+                against their forward direction) and the winding takes the coming
+                polarity at E' = n·(V_src + v_f0 of the body diodes in the path: two on a
+                full bridge): L·di_2/dt = E' − v_B − V_o = u_bd, L·di_1/dt = u_b,
+                L_ms·di_ms/dt = −E'; B carries i_1 + i_2, A blocks E' − v_B; the
+                magnetizing energy returns to the source; ends when i_2 = i_ms
   B only        (A stopped first: L2's current has fallen to the magnetizing current)
                 i_2 = i_ms: L2 and L_ms discharge in series, (L + L_ms)·di_2/dt = u_b;
                 L·di_1/dt = u_b; i_B = i_1 + i_2; A blocks v_Y = V_o + L·di_2/dt
@@ -26,23 +36,23 @@ limit is checked by the tests:
                 conducts; L1, L_ms and L2 form one loop with no source (the output at
                 both ends): i_1 = −i_ms, i_2 = i_ms stay constant; both diodes block V_o
 
-Corners with an IDLE interval are the regime ``DCM`` (with L_m → ∞ the frozen loop
-current is zero and each inductor is discontinuous: the textbook DCM of a buck with
-V_g = E and the full period, Erickson & Maksimović, Fundamentals of Power Electronics,
-2nd ed., §5.3, for each inductor); corners where a diode stops but the other carries on
-to the next on-interval are ``magnetizing-valley``. At the end of an on-interval the
-stopped side must be able to carry the magnetizing current (i_2 ≥ i_ms after ON1): where
-it cannot, the winding reverses until the primary switches' body diodes clamp it and
-return the magnetizing current to the source, which is not modelled (refused with the
-corner named). In every state the winding sees at most V_o + drops (< n·V_src in any
-corner that regulates), so the body diodes are otherwise idle. The on-interval always
-starts with i_1 + i_2 ≥ 0 (every freewheel state ends so), and E > 2·V_o keeps it rising.
+On the grid of :mod:`.bridge_pwm` a half-period is [ON, AB or BD, one diode, IDLE].
+Corners with an IDLE interval are the regime ``DCM``, and so are those whose series
+current (L with L_ms) is below 1e-3 of the inductor peak (a very large n²·L_m: the
+stopped inductor carries next to nothing); with L_m → ∞ each inductor's current rises
+from zero in its on-interval, falls to zero through the other diode, falls below zero
+during the other on-interval (the conducting diode carries the sum) and returns to zero
+in BD. Corners where a diode stops but the series current carries on are
+``magnetizing-valley``. In the one-diode and IDLE states the winding sees at most
+V_o + drops (< n·V_src in any corner that regulates), so the body diodes conduct only in
+BD. The on-interval always starts with i_1 + i_2 ≥ 0 (every freewheel state ends so),
+and E > 2·V_o keeps the sum rising. Refused (corner named): B would have to carry a
+negative current in BD.
 
 Drops are linear, v_f0 + r_d·i, evaluated at the mean current of each interval of the
 previous pass (three passes). The steady state is the fixed point S = mirror(half(S))
 of the start state S = (i_1, i_2, i_ms), found by Newton's method on the piecewise-affine
-map; the duty follows from the charge balance of the output, mean(i_1 + i_2) = I_o, by
-bisection. At zero output current (no minimum load) the duty tends to zero: the stage
+map, jointly with the duty and the charge balance of the output, mean(i_1 + i_2) = I_o. At zero output current (no minimum load) the duty tends to zero: the stage
 skips pulses (``pulse-skipping``) and every voltage stress is taken at the full
 on-interval voltage, which each occasional pulse still applies.
 """
