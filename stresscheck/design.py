@@ -86,6 +86,8 @@ class Design:
     # overlap transition times: "times" (sheet t_rise/t_fall) or "gate-charge"
     overlap_method: str = "times"
     gate_resistance: float | None = None  # [ohm] driver output + external gate resistor
+    gate_off_voltage: float | None = None  # [V] off-state gate bias (negative), if any
+    gate_overshoot: float = 0.0  # [1] gate ringing above the drive, share of the drive
 
     def by_role(self, role: str) -> list[Component]:
         return [c for c in self.components if c.role == role]
@@ -97,7 +99,8 @@ class Design:
 
 CONVERTER_KEYS = ("name", "topology", "rectifier", "modulation", "switching_frequency",
                   "dead_time", "max_duty", "clamp", "overshoot", "gate_voltage",
-                  "overlap_method", "gate_resistance")
+                  "overlap_method", "gate_resistance",
+                  "gate_off_voltage", "gate_overshoot")
 OPERATING_KEYS = ("input", "input_voltage", "input_surge", "output_voltage", "output_current",
                   "current_limit", "ambient_temperature", "line_frequency", "hold_up_time",
                   "hold_up_voltage", "minimum_load", "required_life")
@@ -217,6 +220,16 @@ def load_design(path: str | Path, parts_dirs=()) -> Design:
     design.gate_voltage = scalar(conv, "gate_voltage", "voltage", "converter.")
     _load_gate_drive(design, conv, scalar)
     design.required_life = scalar(op, "required_life", "time", "operating.")
+    design.gate_off_voltage = scalar(conv, "gate_off_voltage", "voltage", "converter.",
+                                     positive=False)
+    if design.gate_off_voltage is not None and design.gate_off_voltage > 0:
+        raise InputError(path, "converter.gate_off_voltage", "the off-state gate bias is "
+                         "zero or negative (e.g. \"-4 V\")")
+    design.gate_overshoot = scalar(conv, "gate_overshoot", "fraction", "converter.",
+                                   positive=False) or 0.0
+    if not 0.0 <= design.gate_overshoot <= 1.0:
+        raise InputError(path, "converter.gate_overshoot", "must be between 0 and 100 % of "
+                         "the gate drive")
     library = PartLibrary(part_folders(path, parts_dirs))
     design.heatsinks = _load_heatsinks(doc, path)
     design.components = _load_components(doc, path, library)

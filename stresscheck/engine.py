@@ -15,7 +15,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import measured, ratings, schema, spikes
+from . import avalanche, measured, ratings, schema, spikes
 from .corners import CornerSet, build_corners
 from .devices import DeviceModel, StageParts, Temperature, build_devices
 from .errors import RegulationError
@@ -88,6 +88,7 @@ def run(design, corners: CornerSet | None = None) -> Evaluation:
                                        p_in)
     notes.extend({"level": "assumption", "text": text} for text in spike_notes)
     ratings.apply(stresses, corners, notes)
+    avalanche.apply(design, corners, stage, result, stresses, devices)
     measured.apply(getattr(design, "measured", ()), stresses)
     ev = Evaluation(design, corners, result, stage, stresses, {k: t[k] for k in runaway},
                     unsolved, p_in, p_out, p_loss, notes, losses, clamps)

@@ -18,6 +18,7 @@ import numpy as np
 from . import schema
 from .errors import InputError
 from .fsio import file_kind
+from .soa import load_soa
 from .tomlio import check_keys, optional_text, read_toml, require_str, shorten, type_name
 from .units import Spread, parse_quantity, parse_spread
 
@@ -114,7 +115,7 @@ def load_part(path: str | Path) -> Part:
     path = Path(path)
     doc = read_toml(path, "part sheet")
     check_keys(doc, ("schema", "id", "kind", "technology", "description", "ratings",
-                     "electrical", "thermal", "notes", "source"), path)
+                     "electrical", "thermal", "notes", "source", "soa"), path)
     version = require_str(doc, "schema", path)
     if version != schema.PART_SCHEMA:
         raise InputError(path, "schema", f"unknown schema version {shorten(version)}; "
@@ -143,6 +144,9 @@ def load_part(path: str | Path) -> Part:
         for key, raw in table.items():
             spec = tables[section][key]
             full = f"{section}.{key}"
+            if (section, key) == ("ratings", "soa"):
+                raise InputError(path, full, "give the SOA as [[soa]] tables (pulse_width, "
+                                 "v_ds and i_d lists) at the top level of the sheet")
             if spec.curve:
                 target[key] = parse_curve(raw, spec, path, full)
                 continue
@@ -159,6 +163,10 @@ def load_part(path: str | Path) -> Part:
                 raise InputError(path, full, f"must not be negative, got {shorten(raw)} "
                                  "(give the magnitude the datasheet lists)")
             target[key] = value
+    if "soa" in doc:
+        if kind != "mosfet":
+            raise InputError(path, "soa", "an SOA table is read for MOSFETs only")
+        part.ratings["soa"] = load_soa(doc["soa"], path)
     _check_consistency(part)
     return part
 

@@ -403,7 +403,8 @@ def _str_list(raw, name, path, key, choices):
 
 _QUANTITY_DIMENSIONS = {"V": "voltage", "A": "current", "W": "power", "degC": "temperature",
                         "T": "flux_density", "s": "time", "1": "fraction",
-                        "K": "temperature_difference"}
+                        "K": "temperature_difference",
+                        "J": "energy"}
 
 
 def _quantity_dimension(quantity: str) -> str:

@@ -75,6 +75,33 @@ def breakdown_scale(tc: float, t_junction):
     return 1.0 + tc * (np.asarray(t_junction, dtype=float) - T_REF)
 
 
+def e_as_scale(ratings: dict, t_start):
+    """e_as(T)/e_as(25 °C) [1], (N,): the single-pulse avalanche energy rating at the
+    starting junction temperature ``t_start``.
+
+    The sheet's ``e_as_temperature_multipliers`` curve where given (the makers draw
+    E_AS against the starting temperature: e.g. 64 % of the 25 °C value at 50 °C for one
+    part, docs/derating-sources.md §2, S23; straight lines between the points, flat
+    beyond: give the curve up to t_j_max); otherwise falling linearly from 1 at 25 °C to
+    zero at ``t_j_max`` (the avalanche heats the junction from its starting temperature
+    to a fixed critical one, so the energy it can take falls about linearly with the
+    start: common practice, from memory), held at 1 below 25 °C (no credit for cold).
+
+    Parameters
+    ----------
+    ratings : dict
+        The MOSFET's ratings: ``t_j_max`` [degC] and optionally
+        ``e_as_temperature_multipliers`` (Curve over temperature).
+    t_start : array
+        Starting junction temperature per corner [degC].
+    """
+    t = np.asarray(t_start, dtype=float)
+    if "e_as_temperature_multipliers" in ratings:
+        return ratings["e_as_temperature_multipliers"](t)
+    t_max = ratings["t_j_max"]
+    return np.clip((t_max - t) / (t_max - T_REF), 0.0, 1.0)
+
+
 def ripple_scale(ratings: dict, f_low, t_ambient):
     """Allowed ripple over the rated ripple [1], (N,): frequency multiplier × temperature
     multiplier from the sheet's tables (practice notes §5: allowed ripple = rated ripple ×

@@ -30,7 +30,7 @@ TEMPERATURE_BASES = ("ambient", "device")
 # never exceed, and the rating ``rating_needed`` refers to for limit-only rules.
 NATURAL_RATINGS = {
     ("mosfet", "v_peak"): "v_ds", ("mosfet", "i_peak"): "i_dm", ("mosfet", "i_rms"): "i_d",
-    ("mosfet", "p_loss"): "p_d", ("mosfet", "t_j"): "t_j_max",
+    ("mosfet", "p_loss"): "p_d", ("mosfet", "t_j"): "t_j_max", ("mosfet", "v_gs_peak"): "v_gs",
     ("diode", "v_reverse_peak"): "v_rrm", ("diode", "i_avg"): "i_f_avg",
     ("diode", "t_j"): "t_j_max",
     ("capacitor", "v_peak"): "v_rated", ("capacitor", "i_ripple_rms"): "i_ripple",

@@ -80,7 +80,14 @@ PART_KEYS: dict[str, dict[str, dict[str, Key]]] = {
         "ratings": {"v_ds": Key("voltage"), "v_gs": Key("voltage"), "i_d": Key("current"),
                     "i_dm": Key("current"), "t_j_max": Key("temperature"),
                     "p_d": Key("power"), "v_ds_tc": Key("per_kelvin"),
-                    "i_d_temperature": Key("temperature")},
+                    "i_d_temperature": Key("temperature"),
+                    # avalanche energy, single pulse at 25 °C start, and its factor
+                    # against the starting junction temperature (avalanche.py)
+                    "e_as": Key("energy"),
+                    "e_as_temperature_multipliers": Key("fraction", curve="temperature"),
+                    # the SOA lines: a top-level [[soa]] array of the sheet (soa.py), never
+                    # a [ratings] value; named here as the rating the SOA rule reads
+                    "soa": Key("current")},
         "electrical": {"r_ds_on": Key("resistance"), "r_ds_on_tc": Key("per_kelvin"),
                        "r_ds_on_hot": Key("resistance"),
                        "r_ds_on_hot_temperature": Key("temperature"),
@@ -147,7 +154,8 @@ POSITIVE_KEYS = {"r_ds_on", "r_ds_on_hot", "capacitance", "inductance", "primary
                  "i_ripple", "ripple_frequency", "i_sat", "i_rms", "b_sat", "life", "p_d",
                  "r_th_jc", "r_th", "e_oss", "q_oss", "oss_voltage", "steinmetz_k",
                  "steinmetz_alpha", "steinmetz_beta", "core_volume", "core_loss_density",
-                 "core_loss_flux", "core_loss_frequency", "turns", "b_sat_hot"}
+                 "core_loss_flux", "core_loss_frequency", "turns", "b_sat_hot",
+                 "e_as"}
 
 
 @dataclass(frozen=True)
@@ -175,13 +183,22 @@ QUANTITIES: dict[str, Quantity] = {
                                 "rms current (local averages over the line cycle)"),
     "i_ripple_rms_hf": Quantity("A", "current", "switching-frequency part of the "
                                 "capacitor's rms current"),
+    "v_gs_peak": Quantity("V", "voltage", "peak gate-source voltage (drive, off-bias and "
+                          "gate overshoot)"),
+    "e_avalanche": Quantity("J", "voltage", "avalanche energy per turn-off where the peak "
+                            "drain voltage reaches breakdown"),
+    "p_avalanche": Quantity("W", "thermal", "avalanche power: energy per turn-off times "
+                            "the switching frequency"),
+    "i_transition": Quantity("A", "current", "drain current of a hard switching "
+                             "transition, against the SOA at the drain voltage then"),
     "hold_up": Quantity("1", "hold-up", "bulk capacitance the hold-up time needs, as a "
                         "share of the capacitance at the lowest tolerance"),
 }
 
 # Quantities per part kind, in report order.
 KIND_QUANTITIES = {
-    "mosfet": ("v_peak", "i_peak", "i_rms", "i_avg", "p_loss", "t_j"),
+    "mosfet": ("v_peak", "i_peak", "i_rms", "i_avg", "p_loss", "t_j", "v_gs_peak",
+               "e_avalanche", "p_avalanche", "i_transition"),
     "diode": ("v_reverse_peak", "i_avg", "i_rms", "i_peak", "p_loss", "t_j"),
     "capacitor": ("v_peak", "i_ripple_rms", "i_ripple_rms_lf", "i_ripple_rms_hf", "hold_up",
                   "t_hotspot", "t_rise", "life"),

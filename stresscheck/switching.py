@@ -62,6 +62,9 @@ class SwitchingLosses:
     left_out: list = field(default_factory=list)  # "term: why" for the row's note
     zvs: np.ndarray | None = None  # (N,) bool: every turn-on of the device soft
     method: str = ""  # which method set the overlap term, for the row's note
+    # largest current of one device at a hard turn-off ("off") and a hard turn-on ("on")
+    # [A], (N,), 0 where there is none: the SOA operating points (soa.py)
+    transitions: dict = field(default_factory=dict)
 
 
 @dataclass
@@ -266,6 +269,8 @@ def compute(result, semis: list[Semi], gate_voltage: float | None = None,
         v = np.asarray(result.v_block[s.key], dtype=float)[:, None]
         hard, soft, toff = on_edge[s.key], soft_edge[s.key], off_edge[s.key]
         res.zvs = ~hard.any(axis=1)
+        res.transitions = {"off": np.where(toff, i_off[s.key], 0.0).max(axis=1),
+                           "on": np.where(hard, i_on[s.key], 0.0).max(axis=1)}
         t_r, t_f, res.method, gaps = transition_times(s, drive)
         res.left_out.extend(gaps)
         e_over = np.zeros(dt.shape)

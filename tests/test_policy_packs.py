@@ -46,6 +46,7 @@ EEE = [
     row("mosfet", SI, "i_rms", "i_d", factor=0.75, memory=True),
     row("mosfet", SI, "p_loss", "p_d", factor=0.5, memory=True),
     row("mosfet", SI, "t_j", "t_j_max", margin=40.0, limit=125.0, memory=True),
+    row("mosfet", SI, "v_gs_peak", "v_gs", factor=0.6, memory=True),  # §2 VGS 60 %
     row("diode", ALL, "v_reverse_peak", "v_rrm", factor=0.7, memory=True),
     row("diode", ALL, "i_avg", "i_f_avg", factor=0.5, memory=True),
     row("diode", ALL, "t_j", "t_j_max", margin=40.0, limit=125.0, memory=True),
@@ -98,6 +99,7 @@ MIL917 = [
     row("mosfet", ALL, "v_peak", "v_ds", factor=0.8, kinds=("transient",)),
     row("mosfet", ALL, "i_rms", "i_d", factor=0.6, kinds=("steady",)),
     row("mosfet", ALL, "i_rms", "i_d", factor=0.8, kinds=("overload",)),
+    row("mosfet", ALL, "v_gs_peak", "v_gs", factor=0.7),  # gate-source voltage row
 ]
 
 # commercial: common practice (derating-sources §16) and the rows named in each rule's
@@ -106,6 +108,9 @@ COMMERCIAL = [
     row("mosfet", ALL, "v_peak", "v_ds", factor=0.8),  # §2 S22, §16
     row("mosfet", ALL, "i_rms", "i_d", factor=0.8),  # §2 S5 maximum drain current
     row("mosfet", ALL, "i_peak", "i_dm", factor=0.8, memory=True),  # common practice
+    row("mosfet", ALL, "v_gs_peak", "v_gs", factor=0.85, memory=True),  # common practice
+    row("mosfet", ALL, "e_avalanche", "e_as", factor=1.0, memory=True),  # §2 S23
+    row("mosfet", ALL, "i_transition", "soa", factor=1.0, memory=True),  # §2 S24
     row("mosfet", ALL, "t_j", "t_j_max", margin=25.0, limit=125.0),  # §16
     row("diode", ALL, "v_reverse_peak", "v_rrm", factor=0.8),  # §16
     row("diode", ALL, "i_avg", "i_f_avg", factor=0.8, memory=True),  # between §6 values

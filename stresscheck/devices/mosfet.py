@@ -8,6 +8,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..losses import DEFAULT_GATE_VOLTAGE
+from ..soa import soa_current
 from ..topologies import Device, StageResult
 from .base import DeviceModel, Losses, Row, StageParts, Temperature
 from .diode import derated_rating, diode_loss, junction_to_ambient
@@ -49,6 +51,31 @@ def r_ds_on_at(part, t_j):
         slope = (e["r_ds_on_hot"] - r25) / (e["r_ds_on_hot_temperature"] - T_REF)
         return np.maximum(r25 + slope * (t - T_REF), 0.05 * r25)
     return np.full_like(t, r25)
+
+
+def gate_peak(v_drive, v_off=None, overshoot=0.0):
+    """Peak gate-source voltage magnitude [V]: the larger of the drive and the off-state
+    bias, each raised by the gate overshoot, V_GS,pk = max(V_on, |V_off|)·(1 + a).
+
+    The gate sees the driver's rails plus its ringing (practice notes: gate and driver
+    overshoot beyond the supply rails; common practice). The sheet's ``v_gs`` is one
+    magnitude (±), so both polarities are checked against it.
+
+    Parameters
+    ----------
+    v_drive : float
+        On-state gate drive [V].
+    v_off : float, optional
+        Off-state gate bias [V] (zero or negative).
+    overshoot : float
+        Ringing above either rail as a share of that rail [1].
+
+    Returns
+    -------
+    float
+        [V]
+    """
+    return max(abs(v_drive), abs(v_off or 0.0)) * (1.0 + overshoot)
 
 
 def body_diode(part) -> tuple[float, float]:
@@ -134,8 +161,78 @@ class Mosfet(DeviceModel):
                                                                               body.peak())
         note = self.loss_note(result)
         rating = derated_rating(self, "i_d", temperature, self.total(losses))
-        return [Row("v_peak", result.v_block[self.key]),
+        rows = [Row("v_peak", result.v_block[self.key]),
                 Row("i_peak", i_peak / self.devices),
                 Row("i_rms", i_rms / self.devices, ratings=rating),
                 Row("p_loss", self.total(losses), note=note),
-                Row("t_j", temperature.values, temperature.reason, note)]
+                Row("t_j", temperature.values, temperature.reason, note),
+                self._gate_row()]
+        if "soa" in self.part.ratings:
+            rows.append(self._soa_row(result, losses, temperature))
+        return rows
+
+    def _gate_row(self) -> Row:
+        """``v_gs_peak``: the gate drive (``[converter] gate_voltage``, else the
+        technology's default), the off-state bias and the gate overshoot."""
+        design = self.context.design if self.context is not None else None
+        given = getattr(design, "gate_voltage", None)
+        v_on = given if given is not None else DEFAULT_GATE_VOLTAGE.get(
+            self.part.technology, 10.0)
+        v_off = getattr(design, "gate_off_voltage", None)
+        a = getattr(design, "gate_overshoot", 0.0) or 0.0
+        note = f"gate drive {v_on:g} V" + ("" if given is not None else
+                                           f" (default for {self.part.technology})")
+        if v_off is not None:
+            note += f", off-state bias {v_off:g} V"
+        if a:
+            note += f", gate overshoot {100 * a:g} %"
+        return Row("v_gs_peak", np.full(self.size, gate_peak(v_on, v_off, a)), note=note)
+
+    def _soa_row(self, result: StageResult, losses: Losses,
+                 temperature: Temperature) -> Row:
+        """``i_transition``: the drain current of the hard transition (turn-off for
+        t_fall, hard turn-on for t_rise) at the off-state voltage, with the SOA current
+        there as its per-corner rating ``soa`` (``soa.soa_current``: the line of the
+        nearest longer pulse width, derated for the solved case temperature). Where both
+        transitions happen the one nearer its limit is taken."""
+        nan = np.full(self.size, np.nan)
+        table, r = self.part.ratings["soa"], self.part.ratings
+        sw = (self.context.extra(result).switching.get(self.key)
+              if self.context is not None and not self.context.line_cycle else None)
+        if sw is None:
+            return Row("i_transition", nan, "switching transitions not modelled for "
+                       "this topology")
+        if not sw.transitions:  # synchronous rectifier: its transitions are soft
+            return Row("i_transition", np.zeros(self.size), note="no hard transition "
+                       "(the body diode carries the current at each edge)")
+        r_jc = self.part.thermal.get("r_th_jc")
+        if r_jc is None or not temperature.computed:
+            return Row("i_transition", nan, "case temperature not computed (needs a "
+                       "thermal path and r_th_jc): the SOA cannot be derated")
+        t_case = temperature.values - self.total(losses) * r_jc
+        v = np.asarray(result.v_block[self.key], dtype=float)
+        best_i, best_a, best_ratio = np.zeros(self.size), None, np.full(self.size, -1.0)
+        for event, key in (("off", "t_fall"), ("on", "t_rise")):
+            i = sw.transitions[event]
+            if not (i > 0).any():
+                continue
+            t_tr = self.electrical.get(key)
+            if t_tr is None:
+                return Row("i_transition", nan, f"no {key} on the part sheet: the SOA "
+                           "pulse width of the transition is unknown")
+            allowed = soa_current(table, v, t_tr, t_case, r["t_j_max"])
+            if np.isnan(allowed).all():
+                return Row("i_transition", nan, f"every SOA line is shorter than the "
+                           f"transition ({key} = {t_tr:g} s)")
+            with np.errstate(divide="ignore", invalid="ignore"):
+                ratio = np.where(i > 0, i / allowed, 0.0)
+            take = ratio > best_ratio
+            best_i = np.where(take, i, best_i)
+            best_a = allowed if best_a is None else np.where(take, allowed, best_a)
+            best_ratio = np.where(take, ratio, best_ratio)
+        if best_a is None:  # no hard edge at any corner: the shortest line as the rating
+            best_a = soa_current(table, v, 0.0, t_case, r["t_j_max"])
+        return Row("i_transition", best_i, ratings={"soa": best_a},
+                   note="drain current at the hard switching transition, against the SOA "
+                   "at the off-state voltage (spike-free), derated for the case "
+                   "temperature")
