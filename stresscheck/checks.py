@@ -330,6 +330,10 @@ def governing_rule(rules, part, kind: str):
     applying = [r for r in rules if r.stress_kinds is None or kind in r.stress_kinds]
     if any(r.curve is not None for r in applying):
         return None
+    # a rating read from a table (the SOA lines) holds per corner only
+    if any(r.rating is not None and not isinstance(part.ratings.get(r.rating, 0.0),
+                                                   (int, float)) for r in applying):
+        return None
     applying = [r for r in applying if r.allowed(part) is not None]
     if not applying:
         return None

@@ -187,8 +187,6 @@ def steady_allowed(component, quantity: str, policy):
     rule = governing_rule(policy.rules_for(part, quantity), part, "steady")
     if rule is None or (rule.rating is not None and rule.rating not in part.ratings):
         return None, None, None
-    if rule.rating is not None and not isinstance(part.ratings[rule.rating], (int, float)):
-        return None, None, None  # a table (the SOA lines): the rating is per corner
     rating = float(part.ratings[rule.rating]) if rule.rating is not None else None
     return rule, float(rule.allowed(part)), rating
 

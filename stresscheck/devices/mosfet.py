@@ -9,7 +9,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..losses import DEFAULT_GATE_VOLTAGE
-from ..soa import soa_current
+from ..soa import soa_current, soa_line_current
 from ..topologies import Device, StageResult
 from .base import DeviceModel, Losses, Row, StageParts, Temperature
 from .diode import derated_rating, diode_loss, junction_to_ambient
@@ -197,14 +197,23 @@ class Mosfet(DeviceModel):
         transitions happen the one nearer its limit is taken."""
         nan = np.full(self.size, np.nan)
         table, r = self.part.ratings["soa"], self.part.ratings
-        sw = (self.context.extra(result).switching.get(self.key)
-              if self.context is not None and not self.context.line_cycle else None)
-        if sw is None:
-            return Row("i_transition", nan, "switching transitions not modelled for "
-                       "this topology")
-        if not sw.transitions:  # synchronous rectifier: its transitions are soft
-            return Row("i_transition", np.zeros(self.size), note="no hard transition "
-                       "(the body diode carries the current at each edge)")
+        sw = self.context.extra(result).switching.get(self.key) \
+            if self.context is not None else None
+        transitions = sw.transitions if sw is not None else {}
+        note = ("drain current at the hard switching transition, against the SOA at the "
+                "off-state voltage (spike-free), derated for the case temperature")
+        if self.context is not None and self.context.line_cycle and self.key[0] == "switch":
+            # the line-cycle model's segments stand for many switching periods: the
+            # largest switch current is taken for both edges (conservative)
+            peak = result.currents[self.key].peak() / self.devices
+            transitions = {"off": peak, "on": peak}
+            note += "; line-cycle model: the peak switch current taken at both edges"
+        if not transitions:  # synchronous rectifier: its transitions are soft
+            v = np.asarray(result.v_block[self.key], dtype=float)
+            return Row("i_transition", np.zeros(self.size),
+                       ratings={"soa": soa_line_current(table.lines[0], v)},
+                       note="no hard transition (the body diode carries the current at "
+                       "each edge)")
         r_jc = self.part.thermal.get("r_th_jc")
         if r_jc is None or not temperature.computed:
             return Row("i_transition", nan, "case temperature not computed (needs a "
@@ -213,7 +222,7 @@ class Mosfet(DeviceModel):
         v = np.asarray(result.v_block[self.key], dtype=float)
         best_i, best_a, best_ratio = np.zeros(self.size), None, np.full(self.size, -1.0)
         for event, key in (("off", "t_fall"), ("on", "t_rise")):
-            i = sw.transitions[event]
+            i = transitions[event]
             if not (i > 0).any():
                 continue
             t_tr = self.electrical.get(key)
@@ -232,7 +241,4 @@ class Mosfet(DeviceModel):
             best_ratio = np.where(take, ratio, best_ratio)
         if best_a is None:  # no hard edge at any corner: the shortest line as the rating
             best_a = soa_current(table, v, 0.0, t_case, r["t_j_max"])
-        return Row("i_transition", best_i, ratings={"soa": best_a},
-                   note="drain current at the hard switching transition, against the SOA "
-                   "at the off-state voltage (spike-free), derated for the case "
-                   "temperature")
+        return Row("i_transition", best_i, ratings={"soa": best_a}, note=note)
