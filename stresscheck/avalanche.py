@@ -18,10 +18,12 @@ Rows (``e_avalanche`` every corner, ``p_avalanche`` steady and overload corners)
   where no inductance is modelled for the spike (the ringing of a rectifier), or where
   the ideal off-state voltage itself reaches breakdown (no inductive event: the part
   would conduct in avalanche for the whole off-time);
-- ``e_avalanche`` is added for every MOSFET whose sheet gives ``e_as`` or that
-  avalanches (or cannot be computed) at some corner; a MOSFET without ``e_as`` that never
-  reaches breakdown gets no row (nothing to check). ``p_avalanche`` only where some
-  corner avalanches.
+- ``e_avalanche`` is added for every MOSFET whose sheet gives ``e_as`` or whose peak
+  drain voltage carries a leakage spike (a clamp or an allowance, or none given: not
+  computed); ``p_avalanche`` for the latter. The rows depend on the design alone, not on
+  the corners. A row of 0 J at every corner passes without ``e_as`` on the sheet (no
+  avalanche: no rating needed, ``Stress.zero_needs_no_rating``); any energy without
+  ``e_as`` is unrated.
 """
 
 from __future__ import annotations
@@ -133,8 +135,10 @@ def apply(design, corners, stage, result, stresses, positions) -> None:
             else:
                 energy = np.where(hit, np.nan, energy)
                 reason = reason or NO_INDUCTANCE
-        avalanches = (energy > 0) | np.isnan(energy)
-        if "e_as" not in r and not avalanches.any():
+        # rows present by the design alone (the nominal point of the sensitivity run
+        # must give the same rows as the corners): a sheet rating, or a spike model
+        spiked = bool(v_peak.spike or v_peak.reason)
+        if "e_as" not in r and not spiked:
             continue
         tj = rows.get("t_j")
         t_start = np.asarray(tj.values, dtype=float) if tj is not None \
@@ -147,12 +151,13 @@ def apply(design, corners, stage, result, stresses, positions) -> None:
         note = _note(hit, energy, design, r)
         e_row = Stress(pos.refs[0], pos.component, "e_avalanche", energy, every, reason,
                        note=note)
+        e_row.zero_needs_no_rating = True  # no avalanche anywhere: pass without e_as
         # the rating at the starting junction temperature; 1 where nothing avalanches
         e_row.rating_scale = {"e_as": np.where(need & np.isfinite(t_start),
                                                e_as_scale(r, t_start), 1.0)}
         e_row.rating_temperature = t_start
         new = {ref: [e_row if ref == pos.refs[0] else _copy(e_row, ref)] for ref in pos.refs}
-        if avalanches.any():
+        if spiked:
             p = energy * corners["switching_frequency"]
             for ref in pos.refs:
                 new[ref].append(Stress(ref, pos.component, "p_avalanche", p, steady, reason,
@@ -166,6 +171,7 @@ def _copy(s: Stress, ref: str) -> Stress:
     out = Stress(ref, s.component, s.quantity, s.values, s.applicable, s.reason,
                  note=s.note)
     out.rating_scale, out.rating_temperature = s.rating_scale, s.rating_temperature
+    out.zero_needs_no_rating = s.zero_needs_no_rating
     return out
 
 

@@ -165,6 +165,13 @@ def _check_stress(stress, policy, corners, temperatures=None) -> Check:
         return np.isin(kinds, rule.stress_kinds)
 
     missing = [r for r in rules if r.rating is not None and r.rating not in part.ratings]
+    if missing and getattr(stress, "zero_needs_no_rating", False) and not values.any():
+        return Check(**base, stress=0.0, corner=corners.ids[idx[worst]], rating=None,
+                     rating_key=missing[0].rating_key, allowed=None, ratio=0.0,
+                     status="pass", rule=missing[0].id, rule_source=missing[0].source,
+                     stress_kind=str(kinds[worst]),
+                     note=with_note(f"zero at every corner: no '{missing[0].rating}' "
+                                    "rating needed"), rating_needed=0.0)
     if missing:
         r = missing[0]
         needed, _ = _rating_needed(rules, r.rating_key, values, applies, temps)

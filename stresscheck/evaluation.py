@@ -36,6 +36,9 @@ class Stress:
     # ratings that hold at each corner (rating key -> (N,) [SI]), e.g. a current rating
     # derated with the case temperature; they replace the sheet's in the checks
     ratings: dict = field(default_factory=dict)
+    # a zero stress at every corner passes without the sheet's rating (e_avalanche: no
+    # avalanche, no rating needed); any other value without it is unrated
+    zero_needs_no_rating: bool = False
 
 
 @dataclass
