@@ -34,6 +34,7 @@ from .evaluation import Stress
 from .ratings import breakdown_scale, e_as_scale
 from .spikes import SPIKE_SWITCH_TOPOLOGIES
 
+QUANTITIES = ("e_avalanche", "p_avalanche")
 NO_INDUCTANCE = ("avalanche energy: the peak drain voltage reaches breakdown, but no "
                  "inductance is modelled for this position's spike")
 DC_BREAKDOWN = ("the ideal off-state voltage itself reaches the breakdown voltage: not an "

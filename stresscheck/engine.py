@@ -88,8 +88,11 @@ def run(design, corners: CornerSet | None = None) -> Evaluation:
                                        p_in)
     notes.extend({"level": "assumption", "text": text} for text in spike_notes)
     ratings.apply(stresses, corners, notes)
+    taken = getattr(design, "measured", ())
+    measured.apply([m for m in taken if m.quantity not in avalanche.QUANTITIES], stresses)
+    # after the measurements: a measured peak drain voltage decides the avalanche
     avalanche.apply(design, corners, stage, result, stresses, devices)
-    measured.apply(getattr(design, "measured", ()), stresses)
+    measured.apply([m for m in taken if m.quantity in avalanche.QUANTITIES], stresses)
     ev = Evaluation(design, corners, result, stage, stresses, {k: t[k] for k in runaway},
                     unsolved, p_in, p_out, p_loss, notes, losses, clamps)
     ev.driver_losses, ev.p_extra = driver, p_extra

@@ -27,7 +27,7 @@ def bridge_parts(*, lossless=False, n_p=4, n_s=2, l_m="200 uH", l_out="10 uH",
     """Parts for a bridge-family test design {id: sheet}."""
     e = LOSSLESS if lossless else {}
     return {
-        "t-fet": part("mosfet", "si", {"v_ds": "200 V", "i_d": "50 A", "i_dm": "200 A",
+        "t-fet": part("mosfet", "si", {"v_ds": "200 V", "v_gs": "20 V", "i_d": "50 A", "i_dm": "200 A",
                                        "t_j_max": "175 degC"},
                       {"r_ds_on": e.get("r_ds_on", "10 mohm"), "r_ds_on_tc": "0.5 %/K"},
                       {"r_th_jc": "1 K/W"}),

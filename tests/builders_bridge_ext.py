@@ -15,7 +15,7 @@ def ext_parts(*, lossless=False, l_leak=None, sync_r_on="4 mohm", **kw):
     ``l_leak`` is given, the transformer's leakage inductance."""
     parts = bridge_parts(lossless=lossless, **kw)
     e = LOSSLESS if lossless else {}
-    parts["t-srfet"] = part("mosfet", "si", {"v_ds": "100 V", "i_d": "80 A", "i_dm": "300 A",
+    parts["t-srfet"] = part("mosfet", "si", {"v_ds": "100 V", "v_gs": "20 V", "i_d": "80 A", "i_dm": "300 A",
                                              "t_j_max": "175 degC"},
                             {"r_ds_on": e.get("r_ds_on", sync_r_on), "r_ds_on_tc": "0.5 %/K",
                              "v_sd": "0.8 V"},

@@ -19,7 +19,7 @@ def cell_parts(*, lossless=False, l="10 uH", l_tol=None, c_out="200 uF", c_in="2
     e = LOSSLESS if lossless else {}
     inductance = l if l_tol is None else {"nom": l, "tolerance": l_tol}
     return {
-        "t-fet": part("mosfet", "si", {"v_ds": "100 V", "i_d": "60 A", "i_dm": "240 A",
+        "t-fet": part("mosfet", "si", {"v_ds": "100 V", "v_gs": "20 V", "i_d": "60 A", "i_dm": "240 A",
                                        "t_j_max": "175 degC"},
                       {"r_ds_on": e.get("r_ds_on", r_on), "r_ds_on_tc": "0.5 %/K",
                        "v_sd": e.get("v_sd", v_sd), "r_sd": e.get("r_sd", "10 mohm")},

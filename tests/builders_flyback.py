@@ -29,7 +29,7 @@ def flyback_parts(*, lossless=False, n_p=20, n_s=10, l_m="100 uH", l_m_tol=None,
     if l_leak:
         xf["leakage_inductance"] = l_leak
     parts = {
-        "t-fet": part("mosfet", "si", {"v_ds": "200 V", "i_d": "30 A", "i_dm": "100 A",
+        "t-fet": part("mosfet", "si", {"v_ds": "200 V", "v_gs": "20 V", "i_d": "30 A", "i_dm": "100 A",
                                        "t_j_max": "175 degC"},
                       {"r_ds_on": e.get("r_ds_on", "40 mohm"), "r_ds_on_tc": "0.5 %/K"},
                       {"r_th_jc": "1 K/W"}),

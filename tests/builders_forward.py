@@ -35,11 +35,11 @@ def forward_parts(*, lossless=False, two_switch=False, n_p=8, n_s=3, n_r=6, l_m=
         xfmr["r_reset"] = "0 ohm" if lossless else r_reset
     diode_e = {"v_f0": e.get("v_f0", "0.4 V"), "r_d": e.get("r_d", "10 mohm")}
     return {
-        "t-fet": part("mosfet", "si", {"v_ds": v_fet, "i_d": "30 A", "i_dm": "120 A",
+        "t-fet": part("mosfet", "si", {"v_ds": v_fet, "v_gs": "20 V", "i_d": "30 A", "i_dm": "120 A",
                                        "t_j_max": "175 degC"},
                       {"r_ds_on": e.get("r_ds_on", "30 mohm"), "r_ds_on_tc": "0.5 %/K"},
                       {"r_th_jc": "1 K/W"}),
-        "t-sr": part("mosfet", "si", {"v_ds": "100 V", "i_d": "60 A", "i_dm": "240 A",
+        "t-sr": part("mosfet", "si", {"v_ds": "100 V", "v_gs": "20 V", "i_d": "60 A", "i_dm": "240 A",
                                       "t_j_max": "175 degC"},
                      {"r_ds_on": e.get("r_ds_on", sr_r_on), "r_ds_on_tc": "0.5 %/K",
                       "v_sd": e.get("v_sd", sr_v_sd), "r_sd": e.get("r_sd", sr_r_sd)},
