@@ -588,7 +588,7 @@ def policy_rule_mutations(doc):
                 sub.append(st.just(DELETE).map(m("factor", "delete factor")))
         qdim = {"V": "voltage", "A": "current", "W": "power", "degC": "temperature",
                 "T": "flux_density", "s": "time", "1": "fraction",
-                "K": "temperature_difference"}[
+                "K": "temperature_difference", "J": "energy"}[
             schema.QUANTITIES[rule["quantity"]].unit]
         if "margin" in rule:
             mdim = "temperature_difference" if qdim == "temperature" else qdim
