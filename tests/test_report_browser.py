@@ -96,7 +96,8 @@ def test_filter_by_status_role_and_kind(page_of):
     import json
     total = len(json.loads((folder / "out" / "results.json").read_text(
         encoding="utf-8"))["checks"])
-    assert total == 77  # the demo's checks (71 before the ceramics' t_rise rows)
+    # the demo's checks: 71, + 6 ceramics' t_rise, + 12 MOSFET gate, avalanche and SOA rows
+    assert total == 89
     page.select_option("#f-status", "fail")
     statuses = _column(page, 7)
     assert statuses and set(statuses) == {"fail"}
