@@ -86,8 +86,7 @@ class Transformer(DeviceModel):
         if self.context is not None:
             core, _ = self._core(result)
             if core is not None:
-                out["core"] = np.where(self.context.heating(), core, 0.0) \
-                if self.context is not None else core
+                out["core"] = np.where(self.context.heating(), core, 0.0)
         return out
 
     def outside_model(self, result: StageResult, losses: Losses) -> np.ndarray:

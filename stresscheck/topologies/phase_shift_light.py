@@ -104,6 +104,21 @@ def _circulate(p, e, r, i0, dt):
     return np.where((e < 0) & (i0 >= 0), np.maximum(i1, 0.0), i1)
 
 
+
+def _series_discharge(p, n, il0, dur):
+    """The output inductor discharging into the output in series with the magnetizing
+    inductance referred to the secondary (primary open, one rectifier on):
+    (L + n²·L_m)·di/dt = −(V_o + V_F + (DCR + R_1)·i), V_F and R_1 the drop and the
+    resistance of the conducting rectifier path, one trapezoidal step of ``dur``
+    [s] from ``il0`` [A]. Returns (i at the end [A], clipped at zero; time until the
+    current stops [s], ``dur`` where it does not)."""
+    l_ser = p.l + n * n * p.l_m
+    rw, k = p.dcr + p.r1, p.vo + p.c1
+    il1 = il0 - (k + rw * il0) * dur / (l_ser + rw * dur / 2)
+    stop = il1 < 0
+    t_stop = np.where(stop, dur * il0 / np.where(stop, il0 - il1, 1.0), dur)
+    return np.maximum(il1, 0.0), t_stop
+
 def half(p, v, d, a):
     """Segments of the first half period at duty ``d`` from i_m = −a (module docstring):
     (dt, (ip_a, ip_b), (il_a, il_b), (m_a, m_b), shared), each (N, HALF), as
@@ -134,15 +149,11 @@ def half(p, v, d, a):
     state = end
     # OPEN: series discharge of n²·L_m and L, i_p = 0
     dur = t_lim - t_z
-    l_ser = p.l + n * n * p.l_m
-    rw, k = p.dcr + p.r1, p.vo + p.c1
     il0 = state[1]
-    il1 = il0 - (k + rw * il0) * dur / (l_ser + rw * dur / 2)
-    stop = il1 < 0
-    t2 = np.where(stop, dur * il0 / np.where(stop, il0 - il1, 1.0), dur)
-    il1 = np.maximum(il1, 0.0)
+    il1, t2 = _series_discharge(p, n, il0, dur)
     put(OPEN, t2, state, (zero, il1, -n * il1))
-    self_v = n * p.l_m / l_ser * (k + rw * (il0 + il1) / 2)  # v_tx in OPEN [V]
+    self_v = n * p.l_m / (p.l + n * n * p.l_m) * (p.vo + p.c1 + (p.dcr + p.r1)
+                                                 * (il0 + il1) / 2)  # v_tx in OPEN [V]
     state = (zero, il1, -n * il1)
     put(S3, dur - t2, state, state)
     # P: the lagging channel on
@@ -337,13 +348,7 @@ def _early(p, e0, r0, start, t_d, t_z):
     end = (np.where(cross, 0.0, ip2), np.where(cross, -m2 / n, il2), m2)
     segs[S1] = (t_s, mid, end, False)
     dur = rest - t_s
-    l_ser = p.l + n * n * p.l_m
-    rw, k = p.dcr + p.r1, p.vo + p.c1
-    il0 = end[1]
-    il1 = il0 - (k + rw * il0) * dur / (l_ser + rw * dur / 2)
-    stop = il1 < 0
-    t2 = np.where(stop, dur * il0 / np.where(stop, il0 - il1, 1.0), dur)
-    il1 = np.maximum(il1, 0.0)
+    il1, t2 = _series_discharge(p, n, end[1], dur)
     z = np.zeros(n_c)
     fin = (np.where(cross, z, end[0]), np.where(cross, il1, end[1]),
            np.where(cross, -n * il1, end[2]))
