@@ -164,6 +164,7 @@ def switching_losses(result, semis, drive: GateDrive) -> dict:
     e, d = sw.electrical, dio.electrical
     res = out[SWITCH]
     t_r, t_f, res.method, gaps = transition_times(sw, drive)
+    res.times = {"on": t_r, "off": t_f}
     res.left_out.extend(gaps)
     has_oss = "c_oss" in e or (("e_oss" in e or "q_oss" in e) and "oss_voltage" in e)
     q_rr = d.get("q_rr")

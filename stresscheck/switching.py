@@ -65,6 +65,9 @@ class SwitchingLosses:
     # largest current of one device at a hard turn-off ("off") and a hard turn-on ("on")
     # [A], (N,), 0 where there is none: the SOA operating points (soa.py)
     transitions: dict = field(default_factory=dict)
+    # the transition times the overlap term used [s] ("on": t_rise, "off": t_fall; None
+    # where the method gives none): the SOA pulse widths (soa.py) follow the same method
+    times: dict = field(default_factory=dict)
 
 
 @dataclass
@@ -272,6 +275,7 @@ def compute(result, semis: list[Semi], gate_voltage: float | None = None,
         res.transitions = {"off": np.where(toff, i_off[s.key], 0.0).max(axis=1),
                            "on": np.where(hard, i_on[s.key], 0.0).max(axis=1)}
         t_r, t_f, res.method, gaps = transition_times(s, drive)
+        res.times = {"on": t_r, "off": t_f}
         res.left_out.extend(gaps)
         e_over = np.zeros(dt.shape)
         if t_r is not None:

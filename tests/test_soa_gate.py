@@ -102,6 +102,30 @@ def test_transition_longer_than_every_line_is_not_computed(tmp_path):
     assert c.status == "not-computed" and "shorter than the transition" in c.note
 
 
+def test_transition_time_follows_the_overlap_method(tmp_path):
+    """The SOA pulse width of a transition is the time the overlap loss used: with the
+    gate-charge method t_fall = (Q_gd + Q_gs/2)·R/V_plateau = 25 nC·11 Ω/5 V = 55 ns
+    (hand-worked), longer than the only 10 ns line, so the row is not computed; the
+    sheet's 5 ns reads that line."""
+    line = [{"pulse_width": "10 ns", "v_ds": ["1 V", "200 V"], "i_d": ["100 A", "20 A"]}]
+    charge = {"q_gd": "20 nC", "q_gs": "10 nC", "v_plateau": "5 V", "r_g": "1 ohm"}
+
+    def check(folder, **converter):
+        parts = flyback_parts()
+        parts["t-fet"]["electrical"].update({"t_rise": "5 ns", "t_fall": "5 ns", **charge})
+        parts["t-fet"]["soa"] = line
+        ev = run(load_design(write_case(folder, flyback_design(**converter), parts)))
+        return {(c.ref, c.quantity): c for c in run_checks(ev, load_policy("commercial"))}
+
+    (tmp_path / "a").mkdir()
+    (tmp_path / "b").mkdir()
+    by_times = check(tmp_path / "a")[("Q1", "i_transition")]
+    assert by_times.status != "not-computed"
+    by_charge = check(tmp_path / "b", overlap_method="gate-charge",
+                      gate_resistance="10 ohm")[("Q1", "i_transition")]
+    assert by_charge.status == "not-computed" and "shorter than the transition" in by_charge.note
+
+
 @pytest.mark.parametrize("table, key", [
     ([{"pulse_width": "1 us", "v_ds": ["100 V", "10 V"], "i_d": ["1 A", "2 A"]}], "v_ds"),
     ([{"pulse_width": "1 us", "v_ds": ["10 V"], "i_d": ["1 A"]}], "soa[1]"),

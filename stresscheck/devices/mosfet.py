@@ -225,10 +225,13 @@ class Mosfet(DeviceModel):
             i = transitions[event]
             if not (i > 0).any():
                 continue
-            t_tr = self.electrical.get(key)
+            # the times the overlap loss used (sheet or gate-charge method), else the sheet's
+            t_tr = (sw.times.get(event) if sw is not None else None) \
+                or self.electrical.get(key)
             if t_tr is None:
-                return Row("i_transition", nan, f"no {key} on the part sheet: the SOA "
-                           "pulse width of the transition is unknown")
+                return Row("i_transition", nan, f"no {key} for this switch (part sheet or "
+                           "gate-charge method): the SOA pulse width of the transition "
+                           "is unknown")
             allowed = soa_current(table, v, t_tr, t_case, r["t_j_max"])
             if np.isnan(allowed).all():
                 return Row("i_transition", nan, f"every SOA line is shorter than the "
