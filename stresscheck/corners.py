@@ -59,6 +59,16 @@ class CornerSet:
         return out
 
 
+
+def part_tolerances(design):
+    """(axis name "<ref>.<key>", spread, unit) of every part value the sheets give as a
+    range (TOLERANCE_KEYS): the part-tolerance axes of the corners and of the samples."""
+    for comp in design.components:
+        for key, unit in TOLERANCE_KEYS.items():
+            spread = comp.part.spread(key) if key in comp.part.electrical else None
+            if spread is not None and spread.is_range:
+                yield f"{comp.refs[0]}.{key}", spread, unit
+
 def build_corners(design) -> CornerSet:
     levels: dict[str, tuple[float, ...]] = {}
     units: dict[str, str] = {}
@@ -77,13 +87,9 @@ def build_corners(design) -> CornerSet:
     if getattr(design, "line_frequency", None) is not None:
         levels["line_frequency"] = design.line_frequency.extremes()
         units["line_frequency"] = "Hz"
-    for comp in design.components:
-        for key, unit in TOLERANCE_KEYS.items():
-            spread = comp.part.spread(key) if key in comp.part.electrical else None
-            if spread is not None and spread.is_range:
-                name = f"{comp.refs[0]}.{key}"
-                levels[name] = spread.extremes()
-                units[name] = unit
+    for name, spread, unit in part_tolerances(design):
+        levels[name] = spread.extremes()
+        units[name] = unit
 
     names = list(levels)
     combos = np.array(list(itertools.product(*(levels[n] for n in names))), dtype=float)
@@ -120,13 +126,9 @@ def input_spreads(design) -> tuple[dict[str, "Spread"], dict[str, str]]:
     if getattr(design, "line_frequency", None) is not None:
         spreads["line_frequency"] = design.line_frequency
         units["line_frequency"] = "Hz"
-    for comp in design.components:
-        for key, unit in TOLERANCE_KEYS.items():
-            spread = comp.part.spread(key) if key in comp.part.electrical else None
-            if spread is not None and spread.is_range:
-                name = f"{comp.refs[0]}.{key}"
-                spreads[name] = spread
-                units[name] = unit
+    for name, spread, unit in part_tolerances(design):
+        spreads[name] = spread
+        units[name] = unit
     return spreads, units
 
 
